@@ -1,0 +1,84 @@
+"""The one error tree of curate.
+
+Every error says what failed, where (file, key, column, class, first row ids
+and a count) and ends with a hint for the fix. The CLI prints
+``ErrorType: message`` and exits with the class's ``exit_code``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+__all__ = [
+    "CurateError",
+    "InputError",
+    "PipelineFileError",
+    "SafetyLimitError",
+    "SchemaFailure",
+    "UsageError",
+    "first_ids",
+]
+
+
+class CurateError(Exception):
+    """Base of every error curate raises on purpose.
+
+    Examples
+    --------
+    >>> str(CurateError("the run failed", hint="try again"))
+    'the run failed\\n  hint: try again'
+    """
+
+    exit_code = 1
+
+    def __init__(self, message: str, *, hint: str | None = None) -> None:
+        self.message = message
+        self.hint = hint
+        super().__init__(message if hint is None else f"{message}\n  hint: {hint}")
+
+
+class UsageError(CurateError):
+    """Bad command-line usage or an impossible request (exit code 2)."""
+
+    exit_code = 2
+
+
+class PipelineFileError(UsageError):
+    """The pipeline file is missing, unreadable or has a bad key (exit code 2)."""
+
+
+class InputError(CurateError):
+    """The input table cannot be used as it is (exit code 3)."""
+
+    exit_code = 3
+
+
+class SchemaFailure(InputError):
+    """The input failed its schema; ``failures`` holds one row per failure."""
+
+    def __init__(self, message: str, *, hint: str | None = None, failures: object = None) -> None:
+        super().__init__(message, hint=hint)
+        self.failures = failures
+
+
+class SafetyLimitError(CurateError):
+    """A safety limit stopped the run before anything was written (exit code 4)."""
+
+    exit_code = 4
+
+
+def first_ids(ids: Sequence[object], limit: int = 5) -> str:
+    """Name the first few ids and the count, for messages.
+
+    Examples
+    --------
+    >>> first_ids([4, 8, 15, 16, 23, 42])
+    '6 rows (first: 4, 8, 15, 16, 23)'
+    >>> first_ids(["a"])
+    '1 row (a)'
+    """
+    shown = ", ".join(str(i) for i in list(ids)[:limit])
+    count = len(ids)
+    if count == 1:
+        return f"1 row ({shown})"
+    return f"{count} rows (first: {shown})"
