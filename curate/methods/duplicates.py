@@ -45,7 +45,8 @@ def exact_duplicates(space: Space, labels: np.ndarray, *, removable: np.ndarray,
         for pos in group:
             if pos != keeper and removable[pos]:
                 out.add(int(pos), "exact-copy",
-                        f"same feature values and label as row kept_as ({len(group)} copies)",
+                        "same feature values and label as an earlier row, which is kept "
+                        f"({len(group)} copies)",
                         neighbours=[keeper], distances=[0.0], kept_as=keeper)
     return out.selection()
 

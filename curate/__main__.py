@@ -1,0 +1,7 @@
+"""Allow `python -m curate`."""
+
+import sys
+
+from curate.cli import main
+
+sys.exit(main())

@@ -1,0 +1,162 @@
+"""The `curate` command: parses, calls, prints. No logic of its own."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import time
+import warnings
+from collections.abc import Callable, Sequence
+from dataclasses import replace
+from pathlib import Path
+from typing import Any
+
+from curate.errors import CurateError
+
+__all__ = ["main"]
+
+
+def _progress(quiet: bool) -> Callable[[str], None]:
+    start = time.perf_counter()
+
+    def say(message: str) -> None:
+        if not quiet:
+            print(f"[{time.perf_counter() - start:7.2f} s] {message}", file=sys.stderr, flush=True)
+
+    return say
+
+
+def _load(args: argparse.Namespace) -> Any:
+    from curate.spec import load_spec
+
+    spec = load_spec(args.pipeline)
+    engine = spec.run.engine
+    if getattr(args, "memory_mb", None):
+        engine = replace(engine, memory_mb=args.memory_mb)
+    if getattr(args, "backend", None):
+        engine = replace(engine, backend=args.backend)
+    return replace(spec, run=replace(spec.run, engine=engine))
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from curate.api import run
+
+    spec = _load(args)
+    out = Path(args.out) if args.out else spec.output.folder
+    result = run(spec, out=out, overwrite=args.overwrite or spec.output.overwrite,
+                 progress=_progress(args.quiet))
+    if args.json:
+        print(json.dumps(result.summary, indent=2, default=str))
+    elif not args.quiet:
+        print(_summary_text(result.summary, out), file=sys.stderr)
+    return 0
+
+
+def _summary_text(summary: dict[str, Any], out: Path) -> str:
+    lines = [f"{summary['rows_in']} rows in, {summary['rows_kept']} kept, "
+             f"{summary['rows_removed']} removed ({summary['rows_quarantined']} quarantined)"]
+    for st in summary["stages"]:
+        reasons = ", ".join(f"{k} {v}" for k, v in st["by_reason"].items()) or "nothing"
+        lines.append(f"  {st['name']} ({st['method']}): {st['rows_in']} in, removed {reasons}, "
+                     f"{st['seconds']:.2f} s")
+    lines.append(f"run folder: {out}")
+    return "\n".join(lines)
+
+
+def cmd_why(args: argparse.Namespace) -> int:
+    from curate.audit import explain
+
+    print(explain(Path(args.run), args.row_id))
+    return 0
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from curate.pipeline import _check_k, prepare
+
+    spec = _load(args)
+    prep = prepare(spec)
+    for stage in spec.stages:
+        _check_k(stage, prep.space.n)
+    print(f"{spec.source}: pipeline file and input are valid: {prep.frame.height} rows, "
+          f"{int((~prep.valid).sum())} would be quarantined, {len(prep.features)} features, "
+          f"{len(spec.stages)} stages")
+    return 0
+
+
+def cmd_methods(args: argparse.Namespace) -> int:
+    from curate.methods import METHODS
+
+    table = [{"key": m.key, "name": m.name, "family": m.family, "reference": m.reference,
+              "purpose": m.purpose, "reasons": m.reasons,
+              "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
+                          "doc": p.doc} for p in m.params]} for m in METHODS.values()]
+    if args.json:
+        print(json.dumps(table, indent=2, default=str))
+        return 0
+    for m in table:
+        print(f"{m['key']:<24} {m['name']} ({m['family']}; {m['reference']})")
+        print(f"{'':<24} {m['purpose']}")
+        for p in m["params"]:
+            print(f"{'':<26}{p['name']} = {p['default']!r}: {p['doc']} ({p['allowed']})")
+    return 0
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    from curate.demo import run_demo
+
+    print(run_demo(rows=args.rows, out=Path(args.out), seed=args.seed, quiet=args.quiet,
+                   progress=_progress(args.quiet)))
+    return 0
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="curate", description="Clean and shrink a training "
+                                     "table, with an audit of every removed row.")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    p = sub.add_parser("run", help="run a pipeline file and write a run folder")
+    p.add_argument("pipeline")
+    p.add_argument("--out", help="run folder (default: [output] folder)")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing run folder")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
+    p.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
+    p.add_argument("--backend", help="neighbour engine: auto, brute, sklearn, faiss, fast, "
+                   "approximate")
+    p.set_defaults(func=cmd_run)
+    p = sub.add_parser("why", help="explain what happened to one row")
+    p.add_argument("row_id")
+    p.add_argument("--run", required=True, help="the run folder")
+    p.set_defaults(func=cmd_why)
+    p = sub.add_parser("check", help="check the pipeline file and the input, select nothing")
+    p.add_argument("pipeline")
+    p.set_defaults(func=cmd_check)
+    p = sub.add_parser("methods", help="list every method with its parameters")
+    p.add_argument("--json", action="store_true")
+    p.set_defaults(func=cmd_methods)
+    p = sub.add_parser("demo", help="build the pump-fleet demo data and run its pipeline")
+    p.add_argument("--rows", type=int, default=20000)
+    p.add_argument("--seed", type=int, default=7)
+    p.add_argument("--out", default="demo")
+    p.add_argument("--quiet", action="store_true")
+    p.set_defaults(func=cmd_demo)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the `curate` command; returns the exit code."""
+    args = _parser().parse_args(argv)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("default")
+            return int(args.func(args))
+    except CurateError as err:
+        print(f"{type(err).__name__}: {err}", file=sys.stderr)
+        return err.exit_code
+    except KeyboardInterrupt:
+        print("stopped: nothing was written", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())
