@@ -1,24 +1,65 @@
 """Turn a validated table into a matrix in which the chosen distance is plain Lp distance.
 
-Numeric columns are scaled (range to [0, 1] by default, or z-score, or robust);
-nominal columns become scaled one-hot vectors so that two different values are
-at distance 1 (the overlap metric) under both Euclidean and Manhattan distance.
+``distance`` picks how columns are embedded (see :mod:`curate.mixed`):
+
+* ``"euclidean"`` / ``"manhattan"``: numeric columns scaled by ``scale`` (range to
+  [0, 1] by default, or z-score, or robust); nominal columns one-hot, scaled so
+  that two different values are at distance 1 (the overlap metric).
+* ``"heom"``: Wilson and Martinez's HEOM, numeric by range, nominal by overlap.
+* ``"hvdm"``: their HVDM, numeric by four standard deviations, nominal by VDM
+  (needs the labels).
+
+Where no value is missing, HEOM and HVDM are Euclidean distance between the
+embedded rows and the space's ``metric`` is ``"euclidean"``. Under
+``missing = "far"`` with gaps present the metric becomes ``"<distance>-missing"``
+and :meth:`Space.distances` applies the definition exactly: embedded part for
+attributes present in both rows, 1 for each attribute missing in either.
+
+A column weight ``w`` multiplies that column's squared contribution under
+Euclidean-type distances (so its distance part by ``sqrt(w)``) and its absolute
+contribution under Manhattan distance; a missing value then costs ``w``.
 """
 
 from __future__ import annotations
 
-import warnings
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 import polars as pl
 
-from curate.errors import InputError, first_ids
+from curate.errors import PipelineFileError, UsageError
+from curate.mixed import (
+    Column,
+    ConstantColumnWarning,
+    encode_nominal,
+    encode_numeric,
+    masked_distances,
+    mutual_information_weights,
+    prepare_column,
+)
 
-__all__ = ["EngineSettings", "Space", "SpaceSettings", "build_space", "NOMINAL_KINDS"]
+__all__ = [
+    "ConstantColumnWarning",
+    "DISTANCES",
+    "EngineSettings",
+    "LEARNED_WEIGHTS",
+    "MISSING_POLICIES",
+    "NOMINAL_KINDS",
+    "SCALES",
+    "Space",
+    "SpaceSettings",
+    "build_space",
+    "identity_codes",
+]
 
 NOMINAL_KINDS = ("category", "string", "bool")
+DISTANCES = ("euclidean", "manhattan", "heom", "hvdm")
+SCALES = ("range", "zscore", "robust")
+MISSING_POLICIES = ("stop", "impute", "far")
+LEARNED_WEIGHTS = ("mutual-information",)
+# Fixed so that learned weights, and so the whole run, repeat exactly.
+WEIGHT_SEED = 0
 
 
 @dataclass(frozen=True)
@@ -31,24 +72,59 @@ class EngineSettings:
 
 @dataclass(frozen=True)
 class SpaceSettings:
-    """The ``[space]`` section of a pipeline file."""
+    """The ``[space]`` section of a pipeline file.
+
+    ``weights`` is a mapping column -> weight (columns left out weigh 1) or
+    ``"mutual-information"``: weights learned from the labels. ``scale`` applies
+    to ``"euclidean"`` and ``"manhattan"`` only; HEOM and HVDM fix their own
+    numeric scaling, so with them any scale but the default is rejected.
+
+    Examples
+    --------
+    >>> SpaceSettings(distance="hvdm", missing="far").distance
+    'hvdm'
+    """
 
     scale: str = "range"
     distance: str = "euclidean"
     missing: str = "stop"
-    weights: dict[str, float] = field(default_factory=dict)
+    weights: Mapping[str, float] | str = field(default_factory=dict)
 
-
-class ConstantColumnWarning(UserWarning):
-    """A feature column has one value only and contributes nothing to distances."""
+    def __post_init__(self) -> None:
+        for key, value, allowed in (("scale", self.scale, SCALES),
+                                    ("distance", self.distance, DISTANCES),
+                                    ("missing", self.missing, MISSING_POLICIES)):
+            if value not in allowed:
+                raise PipelineFileError(f"[space] {key} = {value!r} is not allowed",
+                                        hint=f"use one of {', '.join(map(repr, allowed))}")
+        if self.distance in ("heom", "hvdm") and self.scale != "range":
+            raise PipelineFileError(
+                f"[space] scale = {self.scale!r} contradicts distance = {self.distance!r}, "
+                "which fixes its own numeric scaling",
+                hint="remove scale, or use distance = \"euclidean\" or \"manhattan\"")
+        if isinstance(self.weights, str):
+            if self.weights not in LEARNED_WEIGHTS:
+                raise PipelineFileError(f"[space] weights = {self.weights!r} is not allowed",
+                                        hint="use a table of column = weight, or "
+                                             "\"mutual-information\"")
+            return
+        for column, weight in self.weights.items():
+            number = isinstance(weight, int | float) and not isinstance(weight, bool)
+            if not number or not np.isfinite(weight) or weight < 0:
+                raise PipelineFileError(f"[space] weights: {column!r} = {weight!r} is not a "
+                                        "finite number >= 0", hint="give each weight as a "
+                                                                   "number such as 2.0")
 
 
 @dataclass(frozen=True)
 class Space:
     """Rows as points: ``matrix`` (n x d, float64) and the ``metric`` between them.
 
-    ``columns`` names the embedded dimensions (``column`` or ``column=value``).
-    ``positions`` maps rows back to positions in the space this one was cut from.
+    ``columns`` names the embedded dimensions (``column``, ``column=value`` or,
+    for VDM, ``column|class``). ``attributes`` names the input columns,
+    ``groups[j]`` the attribute of dimension ``j``, ``gaps`` (or None) the
+    ``(n, attributes)`` mask of missing values kept under ``missing = "far"``,
+    and ``weights`` the weight applied to each attribute (set or learned).
 
     Examples
     --------
@@ -64,6 +140,10 @@ class Space:
     columns: tuple[str, ...] = ()
     engine: EngineSettings = EngineSettings()
     identity: np.ndarray | None = None
+    attributes: tuple[str, ...] = ()
+    groups: np.ndarray | None = None
+    gaps: np.ndarray | None = None
+    weights: dict[str, float] = field(default_factory=dict)
 
     def identity_codes(self) -> np.ndarray:
         """One integer per row, equal exactly when the rows' raw feature values are equal.
@@ -95,74 +175,66 @@ class Space:
         """Return the space of the given rows, in the given order."""
         pos = np.asarray(positions, dtype=np.int64)
         ident = None if self.identity is None else self.identity[pos]
-        return replace(self, matrix=np.ascontiguousarray(self.matrix[pos]), identity=ident)
+        gaps = None if self.gaps is None else self.gaps[pos]
+        metric = self.metric
+        if gaps is not None and not gaps.any():
+            # No gap left among these rows: the fast Lp engines can serve them again.
+            gaps, metric = None, "manhattan" if metric.startswith("manhattan") else "euclidean"
+        return replace(self, matrix=np.ascontiguousarray(self.matrix[pos]), identity=ident,
+                       gaps=gaps, metric=metric)
 
     def distances(self, a: Sequence[int] | np.ndarray, b: Sequence[int] | np.ndarray) -> np.ndarray:
         """Exact distances between rows ``a`` and rows ``b`` (positions)."""
-        from curate.neighbours import pairwise
+        a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
+        if self.gaps is None or self.groups is None:
+            from curate.neighbours import pairwise
 
-        return pairwise(self.matrix[np.asarray(a)], self.matrix[np.asarray(b)], self.metric)
-
-
-def _numeric_block(col: pl.Series, scale: str, name: str) -> np.ndarray:
-    values = col.cast(pl.Float64).to_numpy().astype(np.float64)
-    finite = values[np.isfinite(values)]
-    if len(finite) == 0:
-        return np.zeros_like(values)
-    if scale == "range":
-        low, span = finite.min(), finite.max() - finite.min()
-    elif scale == "zscore":
-        low, span = finite.mean(), finite.std()
-    else:  # robust
-        q1, median, q3 = np.percentile(finite, [25, 50, 75])
-        low, span = median, q3 - q1
-    if span == 0 or not np.isfinite(span):
-        warnings.warn(f"column {name!r} is constant; it contributes nothing to distances",
-                      ConstantColumnWarning, stacklevel=3)
-        return np.zeros_like(values)
-    return (values - low) / span
+            return pairwise(self.matrix[a], self.matrix[b], self.metric)
+        cost = np.array([self.weights.get(name, 1.0) for name in self.attributes])
+        return masked_distances(self.matrix, self.groups, self.gaps, cost, a, b,
+                                manhattan=self.metric.startswith("manhattan"))
 
 
-def _nominal_block(col: pl.Series, metric: str, name: str) -> tuple[np.ndarray, list[str]]:
-    text = col.cast(pl.String).fill_null("<missing>")
-    levels = sorted(text.unique().to_list())
-    if len(levels) == 1:
-        warnings.warn(f"column {name!r} is constant; it contributes nothing to distances",
-                      ConstantColumnWarning, stacklevel=3)
-    codes = text.to_frame().with_columns(
-        pl.col(text.name).replace_strict(levels, list(range(len(levels))), return_dtype=pl.Int64)
-    ).to_series().to_numpy()
-    # Two different one-hot rows differ in two places: scale so that distance is 1.
-    value = 1 / np.sqrt(2) if metric == "euclidean" else 0.5
-    block = np.zeros((len(codes), len(levels)), dtype=np.float64)
-    block[np.arange(len(codes)), codes] = value
-    return block, [f"{name}={lv}" for lv in levels]
+def _resolve_weights(settings: SpaceSettings, prepared: list[Column],
+                     classes: np.ndarray | None) -> dict[str, float]:
+    """Weight per column: learned, or set by hand (default 1)."""
+    names = [c.name for c in prepared]
+    if isinstance(settings.weights, str):
+        if classes is None:
+            raise UsageError("[space] weights = \"mutual-information\" needs the labels",
+                             hint="pass labels= to build_space")
+        learned = mutual_information_weights(prepared, classes, seed=WEIGHT_SEED)
+        return dict(zip(names, (float(w) for w in learned), strict=True))
+    unknown = sorted(set(settings.weights) - set(names))
+    if unknown:
+        raise PipelineFileError(f"[space] weights names columns that are not features: "
+                                f"{', '.join(map(repr, unknown))}",
+                                hint=f"use feature columns: {', '.join(map(repr, names))}")
+    return {name: float(settings.weights.get(name, 1.0)) for name in names}
 
 
-def _check_finite(frame: pl.DataFrame, numeric: list[str], ids: Sequence[object], missing: str) -> None:
-    for name in numeric:
-        values = frame[name].cast(pl.Float64)
-        bad_null = values.is_null().to_numpy()
-        bad_nan = values.is_nan().fill_null(False).to_numpy()
-        bad_inf = values.is_infinite().fill_null(False).to_numpy()
-        if bad_inf.any():
-            rows = [ids[i] for i in np.flatnonzero(bad_inf)]
-            raise InputError(f"column {name!r} has infinite values in {first_ids(rows)}",
-                             hint="fix or remove those rows, or add a max/min rule and "
-                                  "on_invalid = \"quarantine\" in [input]")
-        if missing == "stop" and (bad_null | bad_nan).any():
-            rows = [ids[i] for i in np.flatnonzero(bad_null | bad_nan)]
-            raise InputError(f"column {name!r} has missing or NaN values in {first_ids(rows)}",
-                             hint="set [space] missing = \"impute\" (median) or fill the gaps "
-                                  "in the input")
+def _embed(col: Column, settings: SpaceSettings, classes: np.ndarray | None,
+           class_names: np.ndarray) -> tuple[np.ndarray, list[str]]:
+    """Embedded block and dimension names of one prepared column."""
+    distance = settings.distance
+    if not col.nominal:
+        scale = {"heom": "range", "hvdm": "4sd"}.get(distance, settings.scale)
+        return encode_numeric(col, scale), [col.name]
+    if distance == "hvdm":
+        return (encode_nominal(col, "vdm", classes, len(class_names)),
+                [f"{col.name}|{c}" for c in class_names])
+    how = "overlap-l1" if distance == "manhattan" else "overlap"
+    return encode_nominal(col, how), [f"{col.name}={lv}" for lv in col.levels]
 
 
 def build_space(frame: pl.DataFrame, kinds: dict[str, str], settings: SpaceSettings,
-                ids: Sequence[object], engine: EngineSettings | None = None) -> Space:
+                ids: Sequence[object], engine: EngineSettings | None = None, *,
+                labels: np.ndarray | None = None) -> Space:
     """Build the space from the feature columns of ``frame``.
 
     ``kinds`` maps each feature column to ``float``, ``int``, ``category``,
     ``string`` or ``bool``; its order is the column order of the matrix.
+    ``labels`` (one per row) are needed for HVDM and learned weights.
 
     Examples
     --------
@@ -170,28 +242,41 @@ def build_space(frame: pl.DataFrame, kinds: dict[str, str], settings: SpaceSetti
     >>> s = build_space(f, {"a": "float", "b": "category"}, SpaceSettings(), [0, 1, 2])
     >>> s.distances([0], [1, 2]).round(4).tolist()
     [[1.118, 1.0]]
+    >>> g = pl.DataFrame({"a": [0.0, None, 10.0], "b": ["x", "y", "x"]})
+    >>> s = build_space(g, {"a": "float", "b": "category"},
+    ...                 SpaceSettings(distance="heom", missing="far"), [0, 1, 2])
+    >>> s.metric, s.distances([1], [0, 2]).round(4).tolist()
+    ('heom-missing', [[1.4142, 1.4142]])
     """
-    numeric = [c for c, k in kinds.items() if k not in NOMINAL_KINDS]
-    _check_finite(frame, numeric, ids, settings.missing)
-    blocks: list[np.ndarray] = []
-    names: list[str] = []
-    for name, kind in kinds.items():
-        weight = float(settings.weights.get(name, 1.0))
-        if kind in NOMINAL_KINDS:
-            block, labels = _nominal_block(frame[name], settings.distance, name)
-        else:
-            block = _numeric_block(frame[name], settings.scale, name)[:, None]
-            labels = [name]
-            gaps = ~np.isfinite(block[:, 0])
-            if gaps.any():  # only reachable with missing = "impute"
-                block[gaps, 0] = np.median(block[~gaps, 0]) if (~gaps).any() else 0.0
-        if weight != 1.0:
-            block = block * (weight if settings.distance == "manhattan" else np.sqrt(weight))
-        blocks.append(block)
-        names.extend(labels)
+    classes, class_names = None, np.array([])
+    if labels is not None:
+        if len(labels) != frame.height:
+            raise ValueError(f"{len(labels)} labels for {frame.height} rows")
+        class_names, codes = np.unique(np.asarray(labels), return_inverse=True)
+        classes = codes.reshape(-1).astype(np.int64)
+    if settings.distance == "hvdm" and classes is None:
+        raise UsageError("[space] distance = \"hvdm\" needs the labels",
+                         hint="pass labels= to build_space")
+    prepared = [prepare_column(frame[name], kind in NOMINAL_KINDS, ids, settings.missing)
+                for name, kind in kinds.items()]
+    weights = _resolve_weights(settings, prepared, classes)
+    manhattan = settings.distance == "manhattan"
+    blocks, dims, groups = [], [], []
+    for g, col in enumerate(prepared):
+        block, names_g = _embed(col, settings, classes, class_names)
+        w = weights[col.name]
+        blocks.append(block * (w if manhattan else np.sqrt(w)))
+        dims.extend(names_g)
+        groups.extend([g] * block.shape[1])
     matrix = np.hstack(blocks) if blocks else np.zeros((frame.height, 0))
-    return Space(np.ascontiguousarray(matrix), settings.distance, tuple(names),
-                 engine or EngineSettings(), identity=identity_codes(frame, list(kinds)))
+    gaps = np.column_stack([c.gaps for c in prepared]) if prepared else None
+    has_gaps = gaps is not None and bool(gaps.any())
+    base = "manhattan" if manhattan else "euclidean"
+    return Space(np.ascontiguousarray(matrix),
+                 f"{settings.distance}-missing" if has_gaps else base, tuple(dims),
+                 engine or EngineSettings(), identity=identity_codes(frame, list(kinds)),
+                 attributes=tuple(kinds), groups=np.asarray(groups, dtype=np.int64),
+                 gaps=gaps if has_gaps else None, weights=weights)
 
 
 def identity_codes(frame: pl.DataFrame, columns: list[str]) -> np.ndarray:
