@@ -64,10 +64,16 @@ WEIGHT_SEED = 0
 
 @dataclass(frozen=True)
 class EngineSettings:
-    """How neighbour queries run: backend name and the memory they may use."""
+    """How neighbour queries run: backend name, the memory they may use, and where.
+
+    ``cluster`` is the address of a Dask scheduler (or ``"local:N"``); when set,
+    neighbour queries are spread over its workers while a session for that
+    address is open (see :mod:`curate.distributed`), with the same results.
+    """
 
     backend: str = "auto"
     memory_mb: int = 1024
+    cluster: str | None = None
 
 
 @dataclass(frozen=True)
