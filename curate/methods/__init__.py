@@ -2,16 +2,18 @@
 
 Examples
 --------
->>> sorted(METHODS)[:3]
-['conflicting-duplicates', 'enn', 'exact-duplicates']
+>>> {'enn', 'renn', 'all-knn', 'tomek-links', 'ncr'} <= set(METHODS)
+True
 """
 
 from __future__ import annotations
 
 from curate.methods.base import MethodInfo, Param, Selection
+from curate.methods.cleaning import NCR, TOMEK_LINKS
 from curate.methods.duplicates import CONFLICTING, EXACT
-from curate.methods.editing import ENN
+from curate.methods.editing import ALL_KNN, ENN, RENN
 
 __all__ = ["METHODS", "MethodInfo", "Param", "Selection"]
 
-METHODS: dict[str, MethodInfo] = {info.key: info for info in (EXACT, CONFLICTING, ENN)}
+METHODS: dict[str, MethodInfo] = {info.key: info for info in (
+    EXACT, CONFLICTING, ENN, RENN, ALL_KNN, TOMEK_LINKS, NCR)}
