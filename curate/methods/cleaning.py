@@ -81,7 +81,7 @@ def tomek_links(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed
 
 
 TOMEK_LINKS = MethodInfo(
-    key="tomek-links", name="Tomek links", family="cleaning", reference="Tomek 1976",
+    key="tomek-links", name="Tomek links", family="editing", reference="Tomek 1976",
     purpose="clean class borders: remove pairs of rows from different classes that are "
             "each other's nearest neighbour",
     func=tomek_links,
@@ -184,7 +184,7 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
 
 
 NCR = MethodInfo(
-    key="ncr", name="Neighbourhood cleaning rule (NCR)", family="cleaning",
+    key="ncr", name="Neighbourhood cleaning rule (NCR)", family="editing",
     reference="Laurikkala 2001",
     purpose="sharpen a small class of interest: remove other-class rows that ENN outvotes "
             "or that crowd its misclassified rows",
