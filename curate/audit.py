@@ -18,11 +18,15 @@ AUDIT_COLUMNS = ("row_id", "stage", "method", "reason", "detail", "label", "neig
                  "neighbour_labels", "neighbour_distances", "kept_as", "step")
 
 
-def audit_schema() -> pa.DataFrameSchema:
-    """The pandera schema every audit table is checked against before it is written."""
+def audit_schema(unique_ids: bool = True) -> pa.DataFrameSchema:
+    """The pandera schema every audit table is checked against before it is written.
+
+    ``unique_ids`` is false for the record of protected rows, which several
+    stages may each have wanted to remove.
+    """
     return pa.DataFrameSchema(
         {
-            "row_id": pa.Column(None, nullable=False, unique=True),
+            "row_id": pa.Column(None, nullable=False, unique=unique_ids),
             "stage": pa.Column(pl.String, nullable=False),
             "method": pa.Column(pl.String, nullable=False),
             "reason": pa.Column(pl.String, nullable=False, checks=pa.Check.str_length(min_value=1)),
@@ -78,7 +82,7 @@ class AuditBuilder:
             "step": pl.Series(np.asarray(step, dtype=np.int64), dtype=pl.Int64),
         }))
 
-    def frame(self) -> pl.DataFrame:
+    def frame(self, unique_ids: bool = True) -> pl.DataFrame:
         """The audit table, checked against :func:`audit_schema`."""
         if self._parts:
             table = pl.concat(self._parts, how="vertical")
@@ -92,7 +96,7 @@ class AuditBuilder:
                 "kept_as": self.ids.clear(), "step": pl.Series([], dtype=pl.Int64)},
                 schema_overrides={"stage": pl.String, "method": pl.String, "reason": pl.String,
                                   "detail": pl.String})
-        return audit_schema().validate(table)
+        return audit_schema(unique_ids).validate(table)
 
 
 def _nest(values: pl.Series, lengths: np.ndarray) -> pl.Series:

@@ -13,7 +13,8 @@ if TYPE_CHECKING:
 
 __all__ = ["RUN_FILES", "write_result"]
 
-RUN_FILES = ("kept.parquet", "removed.parquet", "audit.parquet", "summary.json", "report.html")
+RUN_FILES = ("kept.parquet", "removed.parquet", "audit.parquet", "summary.json", "report.html",
+             "protected.parquet")
 
 
 def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
@@ -24,6 +25,8 @@ def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool 
         result.kept.write_parquet(tmp / "kept.parquet")
         result.removed.write_parquet(tmp / "removed.parquet")
         result.audit.write_parquet(tmp / "audit.parquet")
+        if result.spared is not None:
+            result.spared.write_parquet(tmp / "protected.parquet")
         (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, default=str) + "\n")
         if report:
             (tmp / "report.html").write_text(render_run(result), encoding="utf-8")

@@ -181,6 +181,13 @@ def validate(frame: pl.DataFrame, settings: InputSettings, ids: list[Any]) -> Va
     the failing rows are marked invalid and the rest is checked once more.
     """
     schema = rules_schema(settings)
+    absent = [name for name, col in schema.columns.items()
+              if name not in frame.columns and getattr(col, "required", True)]
+    if absent:
+        raise SchemaFailure(f"input {settings.path} lacks columns the schema requires: "
+                            + ", ".join(repr(c) for c in absent) + " (check column_in_dataframe)",
+                            hint="fix the input's header, or the column rules / schema model; "
+                                 f"the input has: {', '.join(frame.columns[:12])}")
     checked, failures = _run(schema, frame)
     if checked is not None:
         return Validation(np.ones(frame.height, dtype=bool), failures, checked)

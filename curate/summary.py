@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import platform
 from collections import Counter
 from importlib import metadata
@@ -20,6 +21,17 @@ __all__ = ["build_summary", "versions"]
 _PACKAGES = ("curate", "polars", "numpy", "scipy", "scikit-learn", "imbalanced-learn", "pandera")
 
 
+@functools.cache
+def _installed() -> tuple[tuple[str, str], ...]:
+    found = [("python", platform.python_version())]
+    for name in _PACKAGES:
+        try:
+            found.append((name, metadata.version(name)))
+        except metadata.PackageNotFoundError:
+            found.append((name, "not installed"))
+    return tuple(found)
+
+
 def versions() -> dict[str, str]:
     """Versions of Python and of the packages that decide results.
 
@@ -28,13 +40,7 @@ def versions() -> dict[str, str]:
     >>> "polars" in versions() and "python" in versions()
     True
     """
-    found = {"python": platform.python_version()}
-    for name in _PACKAGES:
-        try:
-            found[name] = metadata.version(name)
-        except metadata.PackageNotFoundError:
-            found[name] = "not installed"
-    return found
+    return dict(_installed())
 
 
 def _counts(values: np.ndarray) -> dict[str, int]:
