@@ -16,7 +16,6 @@ from curate.methods.base import (
     Param,
     Removals,
     Selection,
-    describe_votes,
     encode,
     require_rows,
     vote_counts,
@@ -165,19 +164,23 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     cleanable[target] = False
     a1 = wrong & (codes != target) & removable
     crowd = _crowding(codes, nbr, dist, np.flatnonzero(wrong & (codes == target)), cleanable)
+    a2 = np.zeros(space.n, dtype=bool)
+    a2[list(crowd)] = True
     out = Removals(space.n)
-    for i in np.flatnonzero(a1 | np.isin(np.arange(space.n), list(crowd)) & removable):
-        near = crowd.get(int(i), [])
+    label = repr(str(names[target]))
+    for i in np.flatnonzero(a1 | (a2 & removable)):
+        near = sorted(crowd.get(int(i), []), key=lambda pair: (pair[1], pair[0]))
         if a1[i]:
-            also = (f"; it is also among the {k} nearest neighbours of {len(near)} misclassified "
-                    f"{str(names[target])!r} rows") if near else ""
+            also = (f"; it is also among the {k} nearest neighbours of {len(near)} outvoted "
+                    f"{label} row(s)") if near else ""
             add_vote_records(out, np.array([i]), np.array([i]), codes, names, nbr, dist,
                              suffix=also)
             continue
+        mine = int(counts[near[0][0], target])
         out.add(int(i), "crowds-interest",
-                f"it is among the {k} nearest neighbours of {len(near)} {str(names[target])!r} "
-                f"row(s) that their neighbours misclassify, e.g. "
-                f"{describe_votes(counts[near[0][0]], names, target)}",
+                f"it is among the {k} nearest neighbours of {len(near)} {label} row(s) that "
+                f"their neighbours outvote (the nearest of them has {mine} of {k} votes "
+                f"for {label})",
                 neighbours=[c for c, _ in near], distances=[d for _, d in near])
     return out.selection(info={"interest": str(names[target]),
                                "cleaned_classes": [str(n) for n in names[cleanable]]})

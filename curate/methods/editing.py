@@ -174,7 +174,7 @@ def renn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int =
             stopped = "no change"
             break
         add_vote_records(out, active[going], going, codes, names, nbr, dist, step=rounds,
-                         suffix=f" (round {rounds})")
+                         suffix=f"; removed in round {rounds}")
         active = np.delete(active, going)
     return out.selection(info={"rounds": rounds, "stopped": stopped})
 
