@@ -37,7 +37,7 @@ def two_blobs() -> pl.DataFrame:
     """Two well separated classes on a line, one mislabel at x=0.2, and one exact copy."""
     return pl.DataFrame({
         "x": [0.0, 0.1, 0.2, 0.3, 0.4, 5.0, 5.1, 5.2, 5.3, 0.1],
-        "colour": ["red", "red", "blue", "red", "red", "blue", "blue", "red", "blue", "red"],
+        "colour": ["red", "red", "red", "red", "red", "blue", "blue", "red", "blue", "red"],
         "y": ["a", "a", "b", "a", "a", "b", "b", "b", "b", "a"],
     })
 
