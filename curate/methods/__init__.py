@@ -12,8 +12,10 @@ from curate.methods.base import MethodInfo, Param, Selection
 from curate.methods.cleaning import NCR, TOMEK_LINKS
 from curate.methods.duplicates import CONFLICTING, EXACT
 from curate.methods.editing import ALL_KNN, ENN, RENN
+from curate.methods.hybrid import DROP3, ICF
+from curate.methods.near import HARDNESS, NEAR
 
 __all__ = ["METHODS", "MethodInfo", "Param", "Selection"]
 
 METHODS: dict[str, MethodInfo] = {info.key: info for info in (
-    EXACT, CONFLICTING, ENN, RENN, ALL_KNN, TOMEK_LINKS, NCR)}
+    EXACT, CONFLICTING, ENN, RENN, ALL_KNN, TOMEK_LINKS, NCR, DROP3, ICF, NEAR, HARDNESS)}
