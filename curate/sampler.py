@@ -1,0 +1,272 @@
+"""Every curate method as a scikit-learn / imbalanced-learn sampler.
+
+:class:`Sampler` wraps one method of :data:`curate.methods.METHODS` behind
+``fit_resample(X, y)``, so that it can sit as a step of an
+``imblearn.pipeline.Pipeline``: there, cross-validation curates the training
+folds only and scores the model on untouched test folds.
+
+Why not a subclass of ``imblearn.base.BaseSampler``: its ``fit_resample``
+turns every input into a numeric array first, which would lose the nominal
+columns of a data frame (curate measures them with the overlap metric), and
+it requires a ``sampling_strategy`` that means "how many rows per class", a
+question curate's methods do not answer. The sampler is a plain scikit-learn
+estimator with the method ``fit_resample``, which is all the imbalanced-learn
+pipeline looks for.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import polars as pl
+from sklearn.base import BaseEstimator, OneToOneFeatureMixin
+from sklearn.utils import check_consistent_length
+from sklearn.utils.multiclass import check_classification_targets, type_of_target
+from sklearn.utils.validation import validate_data
+
+from curate.audit import AuditBuilder
+from curate.errors import UsageError
+from curate.methods import METHODS
+from curate.methods.base import MethodInfo, check_params
+from curate.pipeline import NEIGHBOUR_FAMILIES, run_stage
+from curate.schema import feature_kinds
+from curate.space import SpaceSettings, build_space
+from curate.spec import StageSettings
+
+__all__ = ["Sampler"]
+
+
+class Sampler(OneToOneFeatureMixin, BaseEstimator):
+    """Run one curate method on ``(X, y)`` and return the rows it keeps.
+
+    Parameters
+    ----------
+    method : str
+        A method key, as in the pipeline file (``curate methods`` lists them).
+    params : dict or None
+        The method's own parameters (``k``, ``vote``, ``radius``...), checked
+        against its declared table when fitting; None means its defaults.
+    scale, distance, missing : str
+        How rows become points, as in the pipeline file's ``[space]``:
+        ``scale`` "range" (default), "zscore" or "robust"; ``distance``
+        "euclidean" (default), "manhattan", "heom" or "hvdm"; ``missing``
+        "stop" (default: missing values are an error), "impute" or "far".
+    classes : "all", "all-but-smallest" or list of labels
+        Which labels' rows the method may remove; rows of other labels still
+        count as neighbours.
+    seed : int
+        Seed of the method's randomness (presentation orders, tie draws).
+    **method_params
+        Keyword convenience: ``Sampler(method="enn", k=5)`` stores
+        ``params={"k": 5}`` (merged over ``params`` into a new dictionary).
+        ``get_params`` reports them inside ``params`` and ``set_params(k=7)``
+        updates ``params``, so ``clone`` and grid searches see them.
+
+    Attributes
+    ----------
+    sample_indices_ : ndarray
+        Positions of the kept rows in the input, ascending.
+    audit_ : polars.DataFrame
+        One row per removed row, with curate's audit columns; ``row_id`` is
+        the input position.
+    scores_ : dict of str to ndarray
+        Per-row scores the method computed (kDN hardness), one per input row.
+    n_features_in_, feature_names_in_
+        As in scikit-learn.
+
+    Notes
+    -----
+    Numeric arrays (and lists) are read as numeric features. Data frames
+    (pandas or polars) keep their column types: text, categorical and boolean
+    columns are nominal and measured with the overlap metric. The kept rows
+    come back in the input's type (a pandas frame keeps its index). Problems
+    with ``X`` or ``y`` raise ``ValueError`` or ``TypeError`` as in
+    scikit-learn; problems with the settings raise
+    :class:`curate.errors.UsageError`.
+
+    Examples
+    --------
+    >>> X = np.array([[0.0], [0.1], [0.2], [0.15], [1.0], [1.1], [1.2]])
+    >>> y = np.array(["a", "a", "a", "b", "b", "b", "b"])
+    >>> sampler = Sampler(method="enn", k=3)
+    >>> X_kept, y_kept = sampler.fit_resample(X, y)
+    >>> sampler.sample_indices_.tolist(), sampler.audit_["reason"].to_list()
+    ([0, 1, 2, 4, 5, 6], ['knn-disagrees'])
+    >>> sampler.get_params()["params"]
+    {'k': 3}
+    """
+
+    def __init__(self, method: str = "enn", params: dict[str, Any] | None = None, *,
+                 scale: str = "range", distance: str = "euclidean", missing: str = "stop",
+                 classes: str | list[Any] = "all", seed: int = 0, **method_params: Any) -> None:
+        self.method = method
+        # scikit-learn keeps constructor arguments untouched; the one exception,
+        # keyword convenience, lands in ``params`` so that get_params sees it.
+        self.params = _merged(params, method_params)
+        self.scale = scale
+        self.distance = distance
+        self.missing = missing
+        self.classes = classes
+        self.seed = seed
+
+    def set_params(self, **values: Any) -> Sampler:
+        """Set parameters; names of the method's own parameters go into ``params``.
+
+        Examples
+        --------
+        >>> Sampler(method="enn").set_params(k=7, seed=3).get_params()["params"]
+        {'k': 7}
+        """
+        own = set(self._get_param_names())
+        extra = {k: v for k, v in values.items() if k not in own and "__" not in k}
+        super().set_params(**{k: v for k, v in values.items() if k not in extra})
+        if extra:
+            info = METHODS.get(self.method) if isinstance(self.method, str) else None
+            unknown = [k for k in extra if info is not None and info.param(k) is None]
+            if unknown:
+                raise ValueError(f"Invalid parameter {unknown[0]!r} for estimator {self!r}: "
+                                 f"method {self.method!r} has parameters "
+                                 f"{', '.join(p.name for p in info.params)}")  # type: ignore[union-attr]
+            self.params = _merged(self.params, extra)
+        return self
+
+    def __sklearn_tags__(self) -> Any:
+        tags = super().__sklearn_tags__()
+        tags.estimator_type = "sampler"
+        tags.target_tags.required = True
+        tags.input_tags.allow_nan = self.missing != "stop"
+        return tags
+
+    def fit(self, X: Any, y: Any) -> Sampler:
+        """Select the rows to keep and set the fitted attributes; return the sampler."""
+        self.fit_resample(X, y)
+        return self
+
+    def fit_resample(self, X: Any, y: Any) -> tuple[Any, Any]:
+        """Return the kept rows of ``X`` and ``y``, in their input types.
+
+        Examples
+        --------
+        >>> import polars as pl
+        >>> frame = pl.DataFrame({"size": [1.0, 1.1, 1.2, 5.0, 5.1, 5.0],
+        ...                       "kind": ["p", "p", "q", "q", "q", "q"]})
+        >>> kept, labels = Sampler(method="exact-duplicates").fit_resample(
+        ...     frame, ["a", "a", "a", "b", "b", "b"])
+        >>> kept.height, labels
+        (5, ['a', 'a', 'a', 'b', 'b'])
+        """
+        info, params = self._checked_settings()
+        if y is None:
+            raise ValueError(f"{type(self).__name__} requires y to be passed, but the target y "
+                             "is None")
+        frame, kinds = self._features(X)
+        labels = _labels(y)
+        check_consistent_length(frame, labels)
+        if info.family in NEIGHBOUR_FAMILIES and len(np.unique(labels)) < 2:
+            raise ValueError(f"method {info.key!r} compares classes, but y has one class only "
+                             f"({labels[0]!r}); give two or more classes")
+        space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance, self.missing),
+                            list(range(frame.height)), labels=labels)
+        stage = StageSettings(name=info.key, method=info.key, params=params,
+                              max_removed_share=1.0, classes=self._classes())
+        sel = run_stage(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed)
+        self.sample_indices_ = np.sort(sel.kept)
+        self.audit_ = _audit(info, sel, labels)
+        self.scores_ = dict(sel.scores)
+        return _take(X, self.sample_indices_), _take(y, self.sample_indices_)
+
+    def _checked_settings(self) -> tuple[MethodInfo, dict[str, Any]]:
+        if self.method not in METHODS:
+            raise UsageError(f"Sampler: unknown method {self.method!r}",
+                             hint=f"use one of: {', '.join(sorted(METHODS))}")
+        info = METHODS[self.method]
+        if self.params is not None and not isinstance(self.params, dict):
+            raise UsageError(f"Sampler: params must be a dict or None, got {self.params!r}",
+                             hint="write params={\"k\": 5}, or pass k=5")
+        if isinstance(self.seed, bool) or not isinstance(self.seed, int | np.integer):
+            raise UsageError(f"Sampler: seed must be an integer, got {self.seed!r}",
+                             hint="pass seed=0 (or any integer)")
+        return info, check_params(info, dict(self.params or {}), where=f"Sampler({info.key})")
+
+    def _classes(self) -> str | tuple[Any, ...]:
+        if isinstance(self.classes, str) and self.classes in ("all", "all-but-smallest"):
+            return self.classes
+        if isinstance(self.classes, list | tuple | np.ndarray) and len(self.classes) > 0:
+            return tuple(self.classes)
+        raise UsageError(f"Sampler: classes = {self.classes!r} is not allowed",
+                         hint="use \"all\", \"all-but-smallest\" or a non-empty list of labels")
+
+    def _features(self, X: Any) -> tuple[pl.DataFrame, dict[str, str]]:
+        """Turn ``X`` into a polars frame and its column kinds; set ``n_features_in_``."""
+        if _is_pandas(X) or isinstance(X, pl.DataFrame):
+            frame = X if isinstance(X, pl.DataFrame) else _from_pandas(X)
+            if frame.height == 0 or frame.width == 0:
+                raise ValueError(f"found array with {frame.height} sample(s) and {frame.width} "
+                                 "feature(s) while a minimum of 1 is required")
+            validate_data(self, X, skip_check_array=True, reset=True)
+            return frame, feature_kinds(frame, frame.columns, ())
+        allow = "allow-nan" if self.missing != "stop" else True
+        array = validate_data(self, X, dtype="numeric", ensure_all_finite=allow, reset=True)
+        names = [f"x{j}" for j in range(array.shape[1])]
+        frame = pl.DataFrame(np.asarray(array, dtype=np.float64), schema=names, orient="row",
+                             nan_to_null=True)
+        return frame, {name: "float" for name in names}
+
+
+def _merged(params: Any, extra: dict[str, Any]) -> Any:
+    """``params`` updated with ``extra`` in a new dict; a non-dict ``params`` is left for fit
+    to report (scikit-learn expects constructors and set_params never to raise)."""
+    if not extra or not (params is None or isinstance(params, dict)):
+        return params
+    return {**(params or {}), **extra}
+
+
+def _is_pandas(obj: Any) -> bool:
+    # pandas is optional: recognise its objects without importing it.
+    return type(obj).__module__.split(".")[0] == "pandas"
+
+
+def _from_pandas(X: Any) -> pl.DataFrame:
+    frame = pl.from_pandas(X.rename(columns=str), include_index=False)
+    return frame
+
+
+def _labels(y: Any) -> np.ndarray:
+    """Labels as a one-dimensional numpy array, checked the scikit-learn way."""
+    if isinstance(y, pl.Series):
+        values = (y.cast(pl.String) if y.dtype == pl.Categorical else y).to_numpy()
+    elif isinstance(y, pl.DataFrame):
+        values = y.to_numpy()
+    else:
+        values = np.asarray(y.to_numpy() if _is_pandas(y) else y)
+    if values.ndim == 2 and values.shape[1] == 1:
+        values = values.ravel()
+    if values.ndim != 1:
+        raise ValueError("Multilabel and multioutput targets are not supported: y must be one "
+                         f"column of labels, got shape {values.shape}")
+    check_classification_targets(values)
+    if type_of_target(values) not in ("binary", "multiclass"):
+        raise ValueError(f"Unknown label type: {type_of_target(values)}")
+    return values
+
+
+def _audit(info: MethodInfo, sel: Any, labels: np.ndarray) -> pl.DataFrame:
+    """The audit table of one selection; row ids are input positions."""
+    builder = AuditBuilder(pl.Series("row_id", np.arange(len(labels), dtype=np.int64)),
+                           pl.Series("label", labels))
+    builder.add(stage=info.key, method=info.key, positions=sel.removed, reason=sel.reason,
+                detail=sel.detail, neighbours=sel.neighbours, distances=sel.distances,
+                kept_as=sel.kept_as, step=sel.step)
+    return builder.frame()
+
+
+def _take(obj: Any, positions: np.ndarray) -> Any:
+    """Rows ``positions`` of ``obj``, in the type ``obj`` came in."""
+    if _is_pandas(obj):
+        return obj.iloc[positions]
+    if isinstance(obj, pl.DataFrame | pl.Series):
+        return obj[positions]
+    if isinstance(obj, list):
+        return [obj[i] for i in positions]
+    return np.asarray(obj)[positions]

@@ -1,0 +1,101 @@
+"""The sampler passes scikit-learn's own estimator checks, and imbalanced-learn's sampler checks
+where they apply.
+
+Outside references: ``sklearn.utils.estimator_checks.check_estimator`` and the
+checks in ``imblearn.utils.estimator_checks``.
+
+scikit-learn's checks run on tiny data (classes of 3 to 5 rows). curate
+refuses ``k`` at or above the size of a class a stage may remove (a
+``UsageError`` naming the class and the fix), so methods with a ``k`` run the
+checks with ``k = 2``. Each check still expected to fail is listed with why in
+``EXPECTED_FAILURES``; the test also fails if a listed check starts to pass,
+so that the list stays true.
+
+imbalanced-learn checks left out, and why:
+
+* ``check_samplers_fit``: asks for ``sampling_strategy_``; curate's methods
+  do not target row counts per class, so the sampler has no sampling strategy.
+* ``check_samplers_sparse``, ``check_samplers_pandas_sparse``: sparse input is
+  not supported (the sampler says so with scikit-learn's own error, which
+  scikit-learn's sparse checks verify).
+* ``check_samplers_multiclass_ova``: one-hot targets are refused with a clear
+  error; labels are one column.
+* ``check_samplers_string``: text features go in a data frame (pandas or
+  polars), where their column type says they are nominal.
+* ``check_samplers_sample_indices``, ``check_param_validation``: read
+  imbalanced-learn's own tag and constraint objects; ``sample_indices_`` is
+  tested directly below.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import imblearn.utils.estimator_checks as imblearn_checks
+import numpy as np
+import pytest
+from sklearn.utils.estimator_checks import check_estimator
+
+from curate import Sampler
+from curate.methods import METHODS
+
+REQUIRED = {"near-duplicates": {"radius": 0.1}}
+ONE_ROW = ("a single row has no neighbour: curate stops with its own UsageError (k needs more "
+           "rows, with the fix) where the check wants a ValueError that names one sample")
+EXPECTED_FAILURES = {
+    "tomek-links": {"check_fit2d_1sample": ONE_ROW},
+    "ncr": {"check_fit2d_1sample": ONE_ROW},
+}
+IMBLEARN_CHECKS = ("check_target_type", "check_samplers_one_label", "check_samplers_fit_resample",
+                   "check_samplers_sampling_strategy_fit_resample", "check_samplers_pandas",
+                   "check_samplers_list", "check_samplers_2d_target",
+                   "check_samplers_preserve_dtype", "check_sampler_get_feature_names_out",
+                   "check_sampler_get_feature_names_out_pandas",
+                   "check_dataframe_column_names_consistency")
+# Copies are copies whatever the classes: one class is no error for exact-duplicates.
+IMBLEARN_CASES = [("enn", check) for check in IMBLEARN_CHECKS] + [
+    ("exact-duplicates", check) for check in IMBLEARN_CHECKS if check != "check_samplers_one_label"]
+
+
+def sampler_for_checks(key: str, **settings: Any) -> Sampler:
+    """A sampler of ``key`` with the parameters the checks' tiny data allow."""
+    params = dict(REQUIRED.get(key, {}))
+    if METHODS[key].param("k") is not None:
+        params["k"] = 2
+    return Sampler(method=key, params=params or None, **settings)
+
+
+@pytest.mark.parametrize("key", sorted(METHODS))
+def test_scikit_learn_estimator_checks(key: str) -> None:
+    """Every check passes but the listed ones, and those fail."""
+    expected = EXPECTED_FAILURES.get(key, {})
+    results = check_estimator(sampler_for_checks(key), expected_failed_checks=expected,
+                              on_fail=None, on_skip=None)
+    failed = {r["check_name"]: repr(r["exception"]) for r in results if r["status"] == "failed"}
+    assert failed == {}, f"method {key!r}: scikit-learn checks failed: {failed}"
+    now_pass = {r["check_name"] for r in results
+                if r["check_name"] in expected and r["status"] != "xfail"}
+    assert not now_pass, f"method {key!r}: {now_pass} pass now; drop them from EXPECTED_FAILURES"
+    assert sum(r["status"] == "passed" for r in results) >= 30
+
+
+@pytest.mark.parametrize("key, check", IMBLEARN_CASES)
+def test_imbalanced_learn_sampler_checks(key: str, check: str) -> None:
+    """imbalanced-learn's sampler checks that apply to a sampler without a sampling strategy."""
+    getattr(imblearn_checks, check)("Sampler", sampler_for_checks(key))
+
+
+@pytest.mark.parametrize("missing", ["impute", "far"])
+def test_imbalanced_learn_nan_check(missing: str) -> None:
+    """With a missing-value policy, NaN features pass through (imbalanced-learn's nan check)."""
+    imblearn_checks.check_samplers_nan("Sampler", Sampler(method="enn", missing=missing))
+
+
+def test_sample_indices_name_the_returned_rows() -> None:
+    """``sample_indices_`` are the input positions of the rows returned (common practice,
+    as imbalanced-learn's samplers define it)."""
+    X, y = imblearn_checks.sample_dataset_generator()
+    sampler = Sampler(method="enn")
+    X_res, y_res = sampler.fit_resample(X, y)
+    np.testing.assert_array_equal(X_res, X[sampler.sample_indices_])
+    np.testing.assert_array_equal(y_res, y[sampler.sample_indices_])
