@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 
+import numpy as np
 import polars as pl
 
 from curate.cli import main
@@ -97,3 +98,29 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     audit = pl.read_parquet(run / "audit.parquet")
     resent = set(truth.filter(pl.col("fault") == "re-sent")["reading_id"].to_list())
     assert resent <= set(audit["row_id"].to_list())
+
+
+def test_distances_reports_a_radius_profile(make_pipeline, two_blobs, capsys):
+    """The candidate counts agree with a direct scipy cdist computation on the same space."""
+    from scipy.spatial.distance import cdist
+
+    from curate.pipeline import prepare
+    from curate.spec import load_spec
+
+    path = make_pipeline(two_blobs, STAGES)
+    assert main(["distances", str(path), "--radius", "0.05", "--json"]) == 0
+    profile = json.loads(capsys.readouterr().out)
+    prep = prepare(load_spec(path))
+    d = cdist(prep.space.matrix, prep.space.matrix)
+    labels = prep.space_labels
+    same = labels[:, None] == labels[None, :]
+    np_fill = d + np.where(same, 0, np.inf)
+    np.fill_diagonal(np_fill, np.inf)
+    within = int((np_fill.min(axis=1) <= 0.05).sum())
+    assert profile["candidates"][0]["rows_with_same_label_within"] == within
+
+
+def test_a_required_parameter_is_asked_for(make_pipeline, two_blobs, capsys):
+    path = make_pipeline(two_blobs, [{"method": "near-duplicates"}])
+    assert main(["check", str(path)]) == 2
+    assert "'radius' is required" in capsys.readouterr().err

@@ -37,6 +37,7 @@ class Param:
     high: float | None = None
     check: Callable[[Any], bool] | None = None
     check_says: str = ""
+    required: bool = False
 
     def allowed(self) -> str:
         """Describe the allowed values in words.
@@ -136,6 +137,10 @@ def check_params(info: MethodInfo, given: dict[str, Any], *, where: str = "") ->
             raise UsageError(f"{prefix}parameter {name!r} {problem}",
                              hint=f"set {name} to {param.allowed()}")
         out[name] = value
+    for param in info.params:
+        if param.required and out.get(param.name) is None:
+            raise UsageError(f"{prefix}parameter {param.name!r} is required ({param.doc})",
+                             hint=f"set {param.name} to {param.allowed()}")
     return out
 
 

@@ -256,8 +256,8 @@ NEAR = MethodInfo(
     func=near_duplicates,
     params=(
         Param("radius", float, None, "distance in the normalised space within which rows of "
-              "the same label are copies (required)", check=lambda v: v > 0,
-              check_says="greater than 0"),
+              "the same label are copies", check=lambda v: v > 0,
+              check_says="greater than 0", required=True),
         Param("conflicts", str, "report", "rows within the radius of a row with another "
               "label: report them, or drop them", choices=("report", "drop")),
     ),
