@@ -28,7 +28,7 @@ typecheck: $(STAMP)
 	$(BIN)/mypy curate
 
 unit: $(STAMP)
-	$(BIN)/python -m pytest -n 2 --durations=15 curate tests
+	OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 MKL_NUM_THREADS=1 $(BIN)/python -m pytest -n 2 --durations=15 curate tests
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/run_all.py

@@ -277,13 +277,20 @@ def describe_votes(counts: np.ndarray, names: np.ndarray, own: int) -> str:
     --------
     >>> describe_votes(np.array([2, 1]), np.array(["ok", "worn"]), 1)
     "2 of its 3 nearest neighbours are labelled 'ok', 1 'worn' (its own label)"
+    >>> describe_votes(np.array([1, 0]), np.array(["ok", "worn"]), 1)
+    "its nearest neighbour is labelled 'ok', none 'worn' (its own label)"
     """
     k = int(counts.sum())
     order = sorted(np.flatnonzero(counts), key=lambda c: (-counts[c], c))
     parts = []
     for i, c in enumerate(order):
         mark = " (its own label)" if c == own else ""
-        lead = f"{counts[c]} of its {k} nearest neighbours are labelled " if i == 0 else f"{counts[c]} "
+        if i > 0:
+            lead = f"{counts[c]} "
+        elif k == 1:
+            lead = "its nearest neighbour is labelled "
+        else:
+            lead = f"{counts[c]} of its {k} nearest neighbours are labelled "
         parts.append(f"{lead}{str(names[c])!r}{mark}")
     if own not in order:
         parts.append(f"none {str(names[own])!r} (its own label)")
