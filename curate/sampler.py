@@ -87,12 +87,12 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
 
     Examples
     --------
-    >>> X = np.array([[0.0], [0.1], [0.2], [0.15], [1.0], [1.1], [1.2]])
-    >>> y = np.array(["a", "a", "a", "b", "b", "b", "b"])
+    >>> X = np.array([[0.0], [0.1], [0.2], [0.3], [0.15], [1.0], [1.1], [1.2], [1.3]])
+    >>> y = np.array(["a", "a", "a", "a", "b", "b", "b", "b", "b"])
     >>> sampler = Sampler(method="enn", k=3)
     >>> X_kept, y_kept = sampler.fit_resample(X, y)
     >>> sampler.sample_indices_.tolist(), sampler.audit_["reason"].to_list()
-    ([0, 1, 2, 4, 5, 6], ['knn-disagrees'])
+    ([0, 1, 2, 3, 5, 6, 7, 8], ['knn-disagrees'])
     >>> sampler.get_params()["params"]
     {'k': 3}
     """
