@@ -199,7 +199,7 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
 
     def _features(self, X: Any) -> tuple[pl.DataFrame, dict[str, str]]:
         """Turn ``X`` into a polars frame and its column kinds; set ``n_features_in_``."""
-        if _is_pandas(X) or isinstance(X, pl.DataFrame):
+        if (_is_pandas(X) and hasattr(X, "columns")) or isinstance(X, pl.DataFrame):
             frame = X if isinstance(X, pl.DataFrame) else _from_pandas(X)
             if frame.height == 0 or frame.width == 0:
                 raise ValueError(f"found array with {frame.height} sample(s) and {frame.width} "
@@ -228,8 +228,7 @@ def _is_pandas(obj: Any) -> bool:
 
 
 def _from_pandas(X: Any) -> pl.DataFrame:
-    frame = pl.from_pandas(X.rename(columns=str), include_index=False)
-    return frame
+    return pl.from_pandas(X.rename(columns=str), include_index=False)
 
 
 def _labels(y: Any) -> np.ndarray:
