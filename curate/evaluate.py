@@ -1,0 +1,491 @@
+"""Leakage-free evaluation: does the curated training set classify untouched test folds as well?
+
+Stratified k-fold cross-validation, repeated with seeds ``seed, seed + 1, ...``.
+In every fold the space (scaling, and for HVDM the class-conditional tables) is
+fitted on the training rows only, the pipeline's stages run on the training
+rows only, and the test fold is never curated. Each model is scored twice on
+the same folds, trained on all training rows and on the curated ones, so the
+comparison is paired; the difference is tested with the corrected resampled
+t-test of Nadeau and Bengio (2003).
+
+The k-nearest-neighbour classifier votes among neighbours found by
+:func:`curate.neighbours.kneighbors`, the engine the stages use: one search with
+the largest k serves every k, serves every distance curate offers (missing
+values included) and is the search that is timed. Its votes follow
+scikit-learn's ``KNeighborsClassifier`` (uniform weights, ties to the smallest
+class); the tests check its fold scores against ``cross_val_score``. Any other
+scikit-learn classifier, named by import path, is fitted on the embedded matrix.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import json
+import sys
+import time
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import polars as pl
+
+from curate import stats
+from curate.errors import InputError, SafetyLimitError, UsageError
+from curate.neighbours import kneighbors
+from curate.pipeline import Prepared, _safety, prepare, run_stage
+from curate.space import Space, fit_space
+from curate.spec import Spec
+from curate.stats import KNN, FoldOutcome, Key
+
+__all__ = ["K_GRID", "KNN", "evaluate", "evaluate_prepared", "parse_ks", "parse_model_params",
+           "read_faults", "register", "write_evaluation"]
+
+K_GRID = tuple(range(1, 26, 2))
+TEST_NAME = ("corrected resampled t-test (Nadeau and Bengio 2003), two-sided, on per-fold "
+             "accuracy, curated minus uncurated")
+
+
+@dataclass(frozen=True)
+class _Setup:
+    """Everything every fold needs, fixed before the first fold."""
+
+    prep: Prepared
+    frame: pl.DataFrame
+    ids: list[Any]
+    ks: tuple[int, ...]
+    model: tuple[str, dict[str, Any]] | None
+    noise: float
+    towards: Any
+    faults: np.ndarray | None
+    seed: int
+
+
+def parse_ks(text: str | None) -> tuple[int, ...]:
+    """Read ``--k``: comma-separated positive integers, or ``grid`` (1, 3, ..., 25), the default.
+
+    Examples
+    --------
+    >>> parse_ks("5,1,3,3")
+    (1, 3, 5)
+    >>> parse_ks(None)[-1]
+    25
+    """
+    if text is None or text.strip() == "grid":
+        return K_GRID
+    try:
+        ks = sorted({int(part) for part in text.split(",") if part.strip()})
+    except ValueError:
+        raise UsageError(f"--k {text!r} is not a list of integers",
+                         hint="write --k 1,3,5 or --k grid") from None
+    if not ks or ks[0] < 1:
+        raise UsageError(f"--k {text!r} needs integers >= 1", hint="write --k 1,3,5 or --k grid")
+    return tuple(ks)
+
+
+def parse_model_params(items: Sequence[str]) -> dict[str, Any]:
+    """Read ``--model-param`` values: ``NAME=VALUE`` (VALUE as JSON, else text) or a JSON object.
+
+    Examples
+    --------
+    >>> parse_model_params(["n_estimators=50", "criterion=entropy", '{"max_depth": 3}'])
+    {'n_estimators': 50, 'criterion': 'entropy', 'max_depth': 3}
+    """
+    params: dict[str, Any] = {}
+    for item in items:
+        text = item.strip()
+        if text.startswith("{"):
+            try:
+                params.update(json.loads(text))
+            except json.JSONDecodeError as err:
+                raise UsageError(f"--model-param {item!r} is not a JSON object: {err}",
+                                 hint="write --model-param '{\"n_estimators\": 100}'") from None
+            continue
+        name, sep, value = text.partition("=")
+        if not sep or not name.strip():
+            raise UsageError(f"--model-param {item!r} is not NAME=VALUE",
+                             hint="write --model-param n_estimators=100")
+        try:
+            params[name.strip()] = json.loads(value)
+        except json.JSONDecodeError:
+            params[name.strip()] = value
+    return params
+
+
+def _estimator(path: str, params: Mapping[str, Any], seed: int) -> Any:
+    """Build the named classifier; seed it when it takes a random_state and none was given."""
+    module, _, name = path.rpartition(".")
+    try:
+        cls = getattr(importlib.import_module(module), name) if module else None
+    except (ImportError, AttributeError):
+        cls = None
+    if cls is None or not (hasattr(cls, "fit") and hasattr(cls, "predict")):
+        raise UsageError(f"--model {path!r} is not an importable classifier with fit and predict",
+                         hint="give a full import path such as "
+                              "sklearn.ensemble.RandomForestClassifier")
+    try:
+        estimator = cls(**params)
+    except TypeError as err:
+        raise UsageError(f"--model {path}: bad parameters {dict(params)}: {err}",
+                         hint="use the parameter names of the class's constructor") from None
+    if hasattr(estimator, "get_params") and "random_state" in estimator.get_params() \
+            and "random_state" not in params:
+        estimator.set_params(random_state=seed)
+    return estimator
+
+
+def _stack(a: Space, b: Space) -> Space:
+    """One space holding ``a``'s rows then ``b``'s, for searches from test rows into training rows."""
+    gaps = None
+    if a.gaps is not None or b.gaps is not None:
+        width = len(a.attributes)
+        gaps = np.vstack([np.zeros((x.n, width), dtype=bool) if x.gaps is None else x.gaps
+                          for x in (a, b)])
+    metric = next((x.metric for x in (a, b) if x.metric.endswith("-missing")), a.metric)
+    return replace(a, matrix=np.ascontiguousarray(np.vstack([a.matrix, b.matrix])),
+                   identity=None, gaps=gaps, metric=metric)
+
+
+def _fold_spaces(setup: _Setup, train: np.ndarray, test: np.ndarray,
+                 train_labels: np.ndarray) -> tuple[Space, Space]:
+    """Fit the space on the training rows (and their labels) only; embed both parts with it."""
+    spec = setup.prep.spec
+    part_train, part_test = setup.frame[train], setup.frame[test]
+    ids_train, ids_test = [setup.ids[i] for i in train], [setup.ids[i] for i in test]
+    fitted = fit_space(part_train, setup.prep.kinds, spec.space, ids_train, spec.run.engine,
+                       labels=train_labels)
+    return fitted.space, fitted.transform(part_test, ids_test)
+
+
+def _curate(setup: _Setup, space: Space, labels: np.ndarray, ids: list[Any],
+            protected: np.ndarray) -> tuple[np.ndarray, list[np.ndarray]]:
+    """Run the stages on one fold's training rows, as a run would; return kept rows and removals."""
+    spec = setup.prep.spec
+    active = np.arange(space.n)
+    removed: list[np.ndarray] = []
+    for stage in spec.stages:
+        stage_labels = labels[active]
+        sel = run_stage(stage, space.subset(active), stage_labels,
+                        np.flatnonzero(np.isin(active, protected)), spec.run.seed)
+        _safety(stage, stage_labels, sel.removed, [ids[a] for a in active])
+        removed.append(active[sel.removed])
+        active = active[sel.kept]
+    return np.sort(active), removed
+
+
+def _metrics(truth: np.ndarray, predicted: np.ndarray) -> dict[str, float]:
+    from sklearn.metrics import accuracy_score, balanced_accuracy_score, f1_score
+
+    return {"accuracy": float(accuracy_score(truth, predicted)),
+            "balanced_accuracy": float(balanced_accuracy_score(truth, predicted)),
+            "macro_f1": float(f1_score(truth, predicted, average="macro", zero_division=0))}
+
+
+def _knn(ks: tuple[int, ...], stacked: Space, n_train: int, reference: np.ndarray,
+         train_codes: np.ndarray, n_classes: int) -> tuple[dict[int, np.ndarray], float, list[int]]:
+    """Votes of the k nearest reference rows for every test row and k; ms per 1,000 queries.
+
+    A k above the reference rows uses all of them (reported as clipped).
+    """
+    queries = np.arange(n_train, stacked.n)
+    k_max = min(max(ks), len(reference))
+    started = time.perf_counter()
+    _, pos = kneighbors(stacked, k_max, queries=queries, reference=reference, exclude_self=False)
+    ms = (time.perf_counter() - started) / len(queries) * 1e6
+    codes = train_codes[pos]
+    votes: dict[int, np.ndarray] = {}
+    for k in ks:
+        counts = np.stack([(codes[:, :min(k, k_max)] == c).sum(axis=1) for c in range(n_classes)],
+                          axis=1)
+        votes[k] = counts.argmax(axis=1)  # first maximum: ties go to the smallest class
+    return votes, ms, [k for k in ks if k > k_max]
+
+
+def _fold(setup: _Setup, repeat: int, number: int, train: np.ndarray,
+          test: np.ndarray) -> FoldOutcome:
+    """Curate one fold's training part and score every model on its untouched test part."""
+    labels = setup.prep.space_labels
+    classes = np.unique(labels)
+    y_train, y_test, flipped = labels[train], labels[test], None
+    if setup.noise > 0:
+        y_train, flipped = stats.flip_labels(y_train, setup.noise, [setup.seed, repeat, number],
+                                             setup.towards)
+    space_train, space_test = _fold_spaces(setup, train, test, y_train)
+    try:
+        kept, removed = _curate(setup, space_train, y_train, [setup.ids[i] for i in train],
+                                np.flatnonzero(np.isin(train, setup.prep.protected)))
+    except SafetyLimitError as err:
+        raise SafetyLimitError(f"repeat {repeat + 1}, fold {number + 1}: {err.message}",
+                               hint=err.hint) from None
+    stacked = _stack(space_train, space_test)
+    scores: dict[Key, dict[str, float]] = {}
+    clipped: set[Key] = set()
+    lookup: dict[bool, float] = {}
+    for curated, reference in ((False, np.arange(len(train))), (True, kept)):
+        votes, lookup[curated], short = _knn(setup.ks, stacked, len(train), reference,
+                                             np.searchsorted(classes, y_train), len(classes))
+        for k, predicted in votes.items():
+            scores[(KNN, k, curated)] = _metrics(y_test, classes[predicted])
+        clipped |= {(KNN, k, curated) for k in short}
+        if setup.model is not None:
+            est = _estimator(*setup.model, seed=setup.seed)
+            est.fit(space_train.matrix[reference], y_train[reference])
+            scores[(setup.model[0], None, curated)] = _metrics(y_test, est.predict(space_test.matrix))
+    faults = None if setup.faults is None else setup.faults[train]
+    return FoldOutcome(len(train), len(test), len(kept),
+                       stats.majority_accuracy(labels[train], y_test), scores, clipped, lookup,
+                       removed, flipped, faults)
+
+
+def _summarise(setup: _Setup, folds: list[FoldOutcome], n_folds: int, repeats: int,
+               truth: str | Path | None, seconds: float) -> dict[str, Any]:
+    """Everything the folds measured, as one JSON-safe dictionary."""
+    prep = setup.prep
+    ratio = float(np.mean([f.n_test for f in folds]) / np.mean([f.n_train for f in folds]))
+    keys = [(KNN, k) for k in setup.ks] + ([(setup.model[0], None)] if setup.model else [])
+    records = [stats.fold_record(folds, (name, k, c), ratio)
+               for name, k in keys for c in (False, True)]
+    names = [stage.name for stage in prep.spec.stages]
+    result: dict[str, Any] = {
+        "pipeline": prep.spec.source, "input": str(prep.spec.input.path),
+        "folds": n_folds, "repeats": repeats, "seed": setup.seed, "rows": len(setup.ids),
+        "rows_quarantined": int((~prep.valid).sum()), "ks": list(setup.ks),
+        "model": setup.model[0] if setup.model else None,
+        "model_params": setup.model[1] if setup.model else {}, "test": TEST_NAME,
+        "baseline_accuracy": float(np.mean([f.baseline for f in folds])),
+        "kept_share": float(np.mean([f.kept / f.n_train for f in folds])),
+        "lookup": {"k": max(setup.ks),
+                   "full_ms_per_1000": float(np.mean([f.lookup_ms[False] for f in folds])),
+                   "curated_ms_per_1000": float(np.mean([f.lookup_ms[True] for f in folds]))},
+        "best_k": stats.best_k(records), "results": records, "noise": None, "truth": None,
+    }
+    if setup.noise > 0:
+        result["noise"] = {"rate": setup.noise, "towards": setup.towards,
+                           "flipped": int(sum(int(f.flipped_rows().sum()) for f in folds)),
+                           **stats.detection_by_stage(folds, FoldOutcome.flipped_rows, names)}
+    if setup.faults is not None:
+        kinds, counts = np.unique(setup.faults[setup.faults != ""], return_counts=True)
+        result["truth"] = {"file": str(truth), "faults": dict(zip(kinds.tolist(), counts.tolist(),
+                                                                   strict=True)),
+                           **stats.detection_by_stage(folds, FoldOutcome.faulty_rows, names),
+                           "by_fault": stats.recall_by_fault(folds)}
+    result["seconds"] = round(seconds, 3)
+    return stats.json_safe(result)
+
+
+def read_faults(path: str | Path, prep: Prepared) -> np.ndarray:
+    """Fault kind of each row that passed the schema, from a ground-truth table ("" if none).
+
+    The table (CSV or Parquet) needs the input's id column (``row_id`` when the
+    input has none) and a ``fault`` column; one row per faulty input row.
+    """
+    from curate.table import read_input
+
+    table = read_input(Path(path))
+    id_column = prep.spec.input.id or "row_id"
+    missing = [c for c in (id_column, "fault") if c not in table.columns]
+    if missing:
+        raise InputError(f"truth file {path} has no column {', '.join(map(repr, missing))}",
+                         hint=f"give one row per faulty row, with columns {id_column!r} and 'fault'")
+    marks = table.select(pl.col(id_column).cast(pl.String).alias("key"),
+                         pl.col("fault").cast(pl.String)).unique("key", keep="first",
+                                                                 maintain_order=True)
+    ids = prep.ids.gather(prep.valid_positions).cast(pl.String).alias("key")
+    joined = ids.to_frame().join(marks, on="key", how="left", maintain_order="left")
+    return joined["fault"].fill_null("").to_numpy().astype(str)
+
+
+def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], noise: float,
+                   towards: Any) -> None:
+    if folds < 2 or repeats < 1:
+        raise UsageError(f"--folds {folds} --repeats {repeats}: need 2 or more folds and 1 or "
+                         "more repeats", hint="use --folds 10 --repeats 1 (the defaults)")
+    if not ks or min(ks) < 1:
+        raise UsageError(f"k values {list(ks)} must be integers >= 1", hint="use --k 1,3,5")
+    if not 0.0 <= noise < 1.0:
+        raise UsageError(f"--inject-noise {noise} is not a share from 0 to below 1",
+                         hint="give a share such as 0.1 (10% of training labels flipped)")
+    values, counts = np.unique(prep.space_labels.astype(str), return_counts=True)
+    if counts.min() < folds:
+        small = values[np.argmin(counts)]
+        raise UsageError(f"{prep.spec.input.path}: class {small!r} has {counts.min()} rows, fewer "
+                         f"than the {folds} folds, so some test folds would lack it",
+                         hint=f"use --folds {max(2, int(counts.min()))} or fewer"
+                              if counts.min() >= 2 else "give that class more rows")
+    if towards is not None and str(towards) not in values.tolist():
+        raise UsageError(f"--noise-towards {towards!r} is not a class of the input",
+                         hint=f"use one of: {', '.join(values.tolist()[:10])}")
+
+
+def _valid_frame(prep: Prepared) -> pl.DataFrame:
+    """The rows that passed the schema, as the schema returned them (the frame the space saw)."""
+    from curate.schema import validate
+
+    return validate(prep.frame, prep.spec.input, prep.ids.to_list()).frame
+
+
+def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,
+                      ks: Sequence[int] = K_GRID, model: str | None = None,
+                      model_params: Mapping[str, Any] | None = None, inject_noise: float = 0.0,
+                      noise_towards: Any = None, truth: str | Path | None = None, seed: int = 0,
+                      progress: Callable[[str], None] | None = None) -> dict[str, Any]:
+    """Evaluate an already prepared pipeline; see :func:`evaluate` for the parameters."""
+    from sklearn.model_selection import StratifiedKFold
+
+    _check_request(prep, folds, repeats, ks, inject_noise, noise_towards)
+    params = dict(model_params or {})
+    if model is not None:
+        _estimator(model, params, seed)  # a bad name or parameter fails before any fold runs
+    setup = _Setup(prep, _valid_frame(prep), prep.ids.gather(prep.valid_positions).to_list(),
+                   tuple(sorted(set(ks))), (model, params) if model else None, inject_noise,
+                   noise_towards, None if truth is None else read_faults(truth, prep), seed)
+    say = progress or (lambda _message: None)
+    started = time.perf_counter()
+    labels = prep.space_labels
+    outcomes: list[FoldOutcome] = []
+    for repeat in range(repeats):
+        split = StratifiedKFold(n_splits=folds, shuffle=True, random_state=seed + repeat)
+        for number, (train, test) in enumerate(split.split(np.zeros((len(labels), 1)), labels)):
+            say(f"repeat {repeat + 1}/{repeats}, fold {number + 1}/{folds}: "
+                f"{len(train)} training rows, {len(test)} test rows")
+            outcomes.append(_fold(setup, repeat, number, train, test))
+    return _summarise(setup, outcomes, folds, repeats, truth, time.perf_counter() - started)
+
+
+def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
+             ks: Sequence[int] = K_GRID, model: str | None = None,
+             model_params: Mapping[str, Any] | None = None, inject_noise: float = 0.0,
+             noise_towards: Any = None, truth: str | Path | None = None, seed: int = 0,
+             progress: Callable[[str], None] | None = None) -> dict[str, Any]:
+    """Measure, without leakage, what the pipeline's curation does to classification.
+
+    Parameters
+    ----------
+    spec : Spec or path of a pipeline file
+    folds, repeats : int
+        Stratified ``folds``-fold cross-validation, repeated with seeds
+        ``seed``, ``seed + 1``, ... (scikit-learn's ``StratifiedKFold`` with
+        shuffling).
+    ks : sequence of int
+        k values of the nearest-neighbour classifier (default 1, 3, ..., 25).
+    model, model_params : str and mapping, optional
+        A classifier to score besides kNN, by import path (for example
+        ``"sklearn.ensemble.RandomForestClassifier"``), built with these
+        parameters and seeded with ``seed`` when it takes ``random_state``.
+    inject_noise : float
+        Share of each fold's training labels flipped (seeded) before curation;
+        ``noise_towards`` names the class they flip to (default: any other).
+    truth : path, optional
+        A table of known faulty rows (id column and ``fault``), scored like the
+        flipped rows.
+    seed : int
+        Seed of the folds and of the label flips.
+
+    Returns
+    -------
+    dict with ``folds``, ``repeats``, ``baseline_accuracy``, ``results`` (one
+    record per model, k and curated or not), ``best_k``, ``lookup``, ``noise``
+    and ``truth`` (None unless asked), all JSON-safe.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from sklearn.datasets import load_iris
+    >>> from curate.spec import spec_from_dict
+    >>> folder = Path(tempfile.mkdtemp())
+    >>> load_iris(as_frame=True).frame.to_csv(folder / "iris.csv", index=False)
+    >>> spec = spec_from_dict({"input": {"path": "iris.csv", "label": "target"},
+    ...                        "stages": [{"method": "enn", "k": 3}]}, base=folder)
+    >>> out = evaluate(spec, folds=5, ks=[1, 5])
+    >>> [(r["k"], r["curated"]) for r in out["results"]]
+    [(1, False), (1, True), (5, False), (5, True)]
+    >>> round(out["baseline_accuracy"], 3)
+    0.333
+    """
+    if not isinstance(spec, Spec):
+        from curate.spec import load_spec
+
+        spec = load_spec(spec)
+    return evaluate_prepared(prepare(spec), folds=folds, repeats=repeats, ks=ks, model=model,
+                             model_params=model_params, inject_noise=inject_noise,
+                             noise_towards=noise_towards, truth=truth, seed=seed,
+                             progress=progress)
+
+
+def write_evaluation(folder: str | Path, result: dict[str, Any], prep: Prepared,
+                     overwrite: bool = False) -> None:
+    """Write ``evaluation.json`` and ``report.html`` (the full run's report plus the evaluation).
+
+    The run on all rows is executed here, for the report's pictures of what the
+    pipeline removes; the folder appears complete or not at all.
+    """
+    from curate.pipeline import execute
+    from curate.report import render_run
+    from curate.table import write_run_folder
+
+    run = execute(prep)
+
+    def fill(tmp: Path) -> None:
+        (tmp / "evaluation.json").write_text(json.dumps(result, indent=2) + "\n")
+        (tmp / "report.html").write_text(render_run(run, evaluation=result), encoding="utf-8")
+
+    write_run_folder(Path(folder), overwrite, fill)
+
+
+def _command(args: argparse.Namespace) -> int:
+    from curate.report import evaluation_text
+    from curate.spec import load_spec
+
+    started = time.perf_counter()
+
+    def say(message: str) -> None:
+        if not args.quiet:
+            print(f"[{time.perf_counter() - started:7.2f} s] {message}", file=sys.stderr, flush=True)
+
+    prep = prepare(load_spec(args.pipeline))
+    result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats, ks=parse_ks(args.k),
+                               model=args.model, model_params=parse_model_params(args.model_param),
+                               inject_noise=args.inject_noise, noise_towards=args.noise_towards,
+                               truth=args.truth, seed=args.seed, progress=say)
+    if args.out:
+        say(f"writing {args.out}")
+        write_evaluation(args.out, result, prep, overwrite=args.overwrite)
+    print(json.dumps(result, indent=2) if args.json else evaluation_text(result))
+    return 0
+
+
+def register(sub: Any) -> None:
+    """Add the ``evaluate`` command to the CLI's subparsers.
+
+    Examples
+    --------
+    >>> parser = argparse.ArgumentParser()
+    >>> register(parser.add_subparsers())
+    >>> parser.parse_args(["evaluate", "p.toml", "--k", "1,3"]).k
+    '1,3'
+    """
+    p = sub.add_parser("evaluate", help="measure, without leakage, what curation does to "
+                       "classification (cross-validation; stages run on training folds only)")
+    p.add_argument("pipeline")
+    p.add_argument("--folds", type=int, default=10, help="stratified folds (default 10)")
+    p.add_argument("--repeats", type=int, default=1, help="repeat with seeds seed, seed+1, ...")
+    p.add_argument("--k", help="k values of the kNN classifier, such as 1,3,5, or 'grid' "
+                   "for 1,3,...,25 (the default)")
+    p.add_argument("--model", help="import path of a scikit-learn classifier to score besides "
+                   "kNN, such as sklearn.ensemble.RandomForestClassifier")
+    p.add_argument("--model-param", action="append", default=[], metavar="NAME=VALUE",
+                   help="a parameter of --model (repeatable), or a JSON object of them")
+    p.add_argument("--inject-noise", type=float, default=0.0, metavar="RATE",
+                   help="flip this share of each fold's training labels before curation")
+    p.add_argument("--noise-towards", metavar="CLASS", help="flip labels to this class "
+                   "(default: another class drawn uniformly)")
+    p.add_argument("--truth", metavar="FILE", help="table of known faulty rows (id column and "
+                   "'fault') to score the removals against")
+    p.add_argument("--seed", type=int, default=0, help="seed of the folds and the flips")
+    p.add_argument("--out", metavar="FOLDER", help="write evaluation.json and report.html here")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing --out folder")
+    p.add_argument("--json", action="store_true", help="print the evaluation as JSON on stdout")
+    p.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    p.set_defaults(func=_command)

@@ -1,0 +1,172 @@
+"""The report's pictures, drawn with matplotlib off screen and embedded as base64 PNG.
+
+Each function takes plain numbers (never a run object) and returns a
+``data:image/png;base64,...`` URI for an ``<img>`` tag, so the report needs no
+network, no files beside it and no scripts. Figures are built on
+:class:`matplotlib.figure.Figure` with the Agg canvas directly, which leaves
+pyplot's global figure registry untouched.
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+
+__all__ = ["accuracy_plot", "class_balance_plot", "distance_plot", "flow_plot",
+           "projection_plot"]
+
+_KEPT = "#9aa5b1"
+_COLOURS = ("#d62728", "#1f77b4", "#ff7f0e", "#2ca02c", "#9467bd", "#8c564b", "#e377c2",
+            "#17becf", "#bcbd22", "#7f7f7f")
+
+
+def _figure(width: float = 7.0, height: float = 3.6) -> Figure:
+    fig = Figure(figsize=(width, height), dpi=100, layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _uri(fig: Figure) -> str:
+    buffer = io.BytesIO()
+    # No creation date in the metadata, so the same run gives the same bytes.
+    fig.savefig(buffer, format="png", metadata={"Software": None})
+    return "data:image/png;base64," + base64.b64encode(buffer.getvalue()).decode("ascii")
+
+
+def _colour(reasons: Sequence[str]) -> dict[str, str]:
+    return {r: _COLOURS[i % len(_COLOURS)] for i, r in enumerate(reasons)}
+
+
+def flow_plot(stages: Sequence[Mapping[str, Any]]) -> str:
+    """Rows entering each stage, split into rows passed on and rows removed by reason.
+
+    ``stages`` are the summary's stage records (``name``, ``rows_in``,
+    ``kept``, ``by_reason``).
+
+    Examples
+    --------
+    >>> flow_plot([{"name": "enn", "rows_in": 10, "kept": 8, "by_reason": {"vote": 2}}])[:22]
+    'data:image/png;base64,'
+    """
+    fig = _figure(8.0, 1.0 + 0.45 * max(2, len(stages)))
+    ax = fig.add_subplot()
+    reasons = sorted({r for st in stages for r in st["by_reason"]})
+    colour = _colour(reasons)
+    names = [str(st["name"]) for st in stages][::-1]
+    rows = list(stages)[::-1]
+    ax.barh(names, [st["kept"] for st in rows], color=_KEPT, label="passed on")
+    left = np.array([st["kept"] for st in rows], dtype=float)
+    for reason in reasons:
+        width = np.array([st["by_reason"].get(reason, 0) for st in rows], dtype=float)
+        ax.barh(names, width, left=left, color=colour[reason], label=f"removed: {reason}")
+        left += width
+    ax.set_xlabel("rows entering the stage")
+    ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize="small", frameon=False)
+    return _uri(fig)
+
+
+def class_balance_plot(before: Mapping[str, int], after: Mapping[str, int]) -> str:
+    """Rows per class in the input and in the kept set, side by side.
+
+    Examples
+    --------
+    >>> class_balance_plot({"a": 5, "b": 2}, {"a": 3, "b": 2}).startswith("data:image/png")
+    True
+    """
+    classes = list(before)
+    fig = _figure(7.0, 3.0)
+    ax = fig.add_subplot()
+    x = np.arange(len(classes))
+    ax.bar(x - 0.2, [before[c] for c in classes], width=0.4, color=_KEPT, label="input")
+    ax.bar(x + 0.2, [after.get(c, 0) for c in classes], width=0.4, color=_COLOURS[1],
+           label="kept")
+    ax.set_xticks(x, classes, rotation=20 if len(classes) > 4 else 0)
+    ax.set_ylabel("rows")
+    ax.legend(frameon=False)
+    return _uri(fig)
+
+
+def projection_plot(xy: np.ndarray, reasons: np.ndarray, explained: Sequence[float]) -> str:
+    """Scatter of a 2-D projection: kept rows grey, removed rows coloured by reason.
+
+    ``reasons`` holds one text per point, empty for kept rows; ``explained``
+    the share of variance of each axis.
+
+    Examples
+    --------
+    >>> projection_plot(np.zeros((3, 2)), np.array(["", "vote", ""]), [0.6, 0.3])[:10]
+    'data:image'
+    """
+    fig = _figure(7.0, 5.0)
+    ax = fig.add_subplot()
+    kept = reasons == ""
+    ax.scatter(xy[kept, 0], xy[kept, 1], s=5, c=_KEPT, alpha=0.5, linewidths=0, label="kept")
+    names = sorted(set(reasons[~kept].tolist()))
+    colour = _colour(names)
+    for reason in names:
+        at = reasons == reason
+        ax.scatter(xy[at, 0], xy[at, 1], s=12, c=colour[reason], marker="x", linewidths=0.8,
+                   label=f"removed: {reason}")
+    ax.set_xlabel(f"first component ({explained[0]:.0%} of variance)")
+    ax.set_ylabel(f"second component ({explained[1]:.0%} of variance)"
+                  if len(explained) > 1 else "(one dimension only)")
+    ax.legend(fontsize="small", frameon=False, markerscale=1.5)
+    return _uri(fig)
+
+
+def distance_plot(distances: np.ndarray, radius: float | None = None) -> str:
+    """Histogram of nearest-neighbour distances, with the near-copy radius marked if set.
+
+    Examples
+    --------
+    >>> distance_plot(np.array([0.0, 0.1, 0.2, 0.2]), radius=0.05)[:5]
+    'data:'
+    """
+    fig = _figure(7.0, 3.0)
+    ax = fig.add_subplot()
+    finite = distances[np.isfinite(distances)]
+    top = float(finite.max()) if len(finite) else 1.0
+    bins = np.linspace(0.0, top if top > 0 else 1.0, 41).tolist()
+    ax.hist(finite, bins=bins, color=_COLOURS[1])
+    if radius is not None:
+        ax.axvline(radius, color=_COLOURS[0], linestyle="--", label=f"near-copy radius {radius:g}")
+        ax.legend(frameon=False)
+    ax.set_xlabel("distance to the nearest other row")
+    ax.set_ylabel("rows")
+    return _uri(fig)
+
+
+def accuracy_plot(results: Sequence[Mapping[str, Any]], baseline: float | None = None) -> str:
+    """Mean accuracy (with one standard deviation) against k, with and without curation.
+
+    ``results`` are the evaluation records; only those with a ``k`` are drawn.
+    ``baseline``, the majority-class accuracy, is drawn as a dotted line.
+
+    Examples
+    --------
+    >>> accuracy_plot([{"k": 1, "curated": False, "accuracy": 0.8, "accuracy_std": 0.1},
+    ...                {"k": 1, "curated": True, "accuracy": 0.9, "accuracy_std": 0.1}])[:5]
+    'data:'
+    """
+    fig = _figure(7.0, 3.4)
+    ax = fig.add_subplot()
+    for curated, colour, label in ((False, _KEPT, "without curation"),
+                                   (True, _COLOURS[1], "with curation")):
+        rows = sorted((r for r in results if r.get("k") is not None and r["curated"] == curated),
+                      key=lambda r: r["k"])
+        if rows:
+            ax.errorbar([r["k"] for r in rows], [r["accuracy"] for r in rows],
+                        yerr=[r["accuracy_std"] for r in rows], marker="o", capsize=3,
+                        color=colour, label=label)
+    if baseline is not None:
+        ax.axhline(baseline, color="#555555", linestyle=":", label="majority-class baseline")
+    ax.set_xlabel("k (neighbours that vote)")
+    ax.set_ylabel("accuracy on untouched test folds")
+    ax.legend(frameon=False)
+    return _uri(fig)
