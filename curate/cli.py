@@ -36,6 +36,9 @@ def _load(args: argparse.Namespace) -> Any:
         engine = replace(engine, memory_mb=args.memory_mb)
     if getattr(args, "backend", None):
         engine = replace(engine, backend=args.backend)
+    if getattr(args, "cluster", None):
+        engine = replace(engine, cluster=args.cluster)
+        spec = replace(spec, cluster=replace(spec.cluster, address=args.cluster))
     return replace(spec, run=replace(spec.run, engine=engine))
 
 
@@ -123,6 +126,8 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
     p.add_argument("--backend", help="neighbour engine: auto, brute, sklearn, faiss, fast, "
                    "approximate")
+    p.add_argument("--cluster", metavar="ADDRESS", help="run on a Dask cluster: a scheduler "
+                   "address, or local:N for N worker processes on this machine")
     p.set_defaults(func=cmd_run)
     p = sub.add_parser("why", help="explain what happened to one row")
     p.add_argument("row_id")

@@ -172,6 +172,11 @@ def run_stage(stage: StageSettings, space: Space, labels: np.ndarray, protected:
         _check_k(stage, space.n)
     removable = _removable(stage, labels, protected)
     stage_seed = stage.seed if stage.seed is not None else seed
+    if space.engine.cluster is not None:
+        from curate.distributed import run_on_cluster
+
+        return run_on_cluster(info, space, labels, removable=removable, seed=stage_seed,
+                              params=stage.params)
     return info.func(space, labels, removable=removable, seed=stage_seed, **dict(stage.params))
 
 
@@ -217,7 +222,18 @@ def _record(prep: Prepared, audit: AuditBuilder, stage: StageSettings, active: n
 
 
 def execute(prep: Prepared, progress: Callable[[str], None] | None = None) -> RunResult:
-    """Run every stage on the rows still kept and assemble the result (nothing is written)."""
+    """Run every stage on the rows still kept and assemble the result (nothing is written).
+
+    With a ``[cluster]`` address the stages run inside one Dask session that
+    closes when they end (see :mod:`curate.distributed`).
+    """
+    from curate.distributed import cluster_session
+
+    with cluster_session(prep.spec.cluster):
+        return _execute(prep, progress)
+
+
+def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResult:
     from curate.summary import build_summary
 
     say = progress or (lambda _msg: None)

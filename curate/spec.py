@@ -89,10 +89,20 @@ class RunSettings:
 
 @dataclass(frozen=True)
 class ClusterSettings:
-    """The ``[cluster]`` section: where a Dask scheduler listens, if anywhere."""
+    """The ``[cluster]`` section: where a Dask scheduler listens, if anywhere.
+
+    ``address`` is a scheduler address or ``"local:N"`` (N worker processes
+    started for the run); ``partitions`` splits condensing and hybrid stages
+    (default: one per worker); ``retries`` reruns a task that raised;
+    ``block_rows`` is the query rows per task; ``timeout`` (seconds) bounds the
+    wait for one batch of tasks. See :mod:`curate.distributed`.
+    """
 
     address: str | None = None
     partitions: int | None = None
+    retries: int = 2
+    block_rows: int = 4096
+    timeout: float = 3600.0
 
 
 @dataclass(frozen=True)
@@ -287,14 +297,39 @@ def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
                          classes=_classes(where, body, index), seed=seed)
 
 
-def _run(where: _Where, data: Mapping[str, Any]) -> RunSettings:
+def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:
     _known(where, "run", data, ("seed", "backend", "memory_mb"))
     memory = _get(where, "run", data, "memory_mb", int, 1024)
     if memory < 16:
         _fail(where, "run", "memory_mb", f"got {memory}", "give at least 16 (megabytes)")
     return RunSettings(seed=_get(where, "run", data, "seed", int, 0),
                        engine=EngineSettings(_get(where, "run", data, "backend", str, "auto", BACKENDS),
-                                             memory))
+                                             memory, cluster))
+
+
+def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
+    from curate.distributed import local_workers
+
+    _known(where, "cluster", data, ("address", "partitions", "retries", "block_rows", "timeout"))
+    address = _get(where, "cluster", data, "address", str, None)
+    try:
+        if address is not None and (not address.strip() or local_workers(address) is None
+                                    and " " in address):
+            raise UsageError(f"[cluster] address {address!r} is not an address",
+                             hint="write a scheduler address such as \"tcp://10.0.0.5:8786\", "
+                                  "or \"local:2\"")
+    except UsageError as err:
+        _fail(where, "cluster", "address", err.message, str(err.hint))
+    for key, low in (("partitions", 1), ("retries", 0), ("block_rows", 1)):
+        value = _get(where, "cluster", data, key, int, None)
+        if value is not None and value < low:
+            _fail(where, "cluster", key, f"got {value}", f"use {low} or more")
+    timeout = _get(where, "cluster", data, "timeout", float, 3600.0)
+    if timeout <= 0:
+        _fail(where, "cluster", "timeout", f"got {timeout}", "give seconds > 0")
+    return ClusterSettings(address, _get(where, "cluster", data, "partitions", int, None),
+                           _get(where, "cluster", data, "retries", int, 2),
+                           _get(where, "cluster", data, "block_rows", int, 4096), timeout)
 
 
 def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: str = "<dict>",
@@ -329,11 +364,7 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
                                 hint=f"add [[stages]] with method = one of: {', '.join(sorted(METHODS))}")
     output = dict(data.get("output", {}))
     _known(where, "output", output, ("folder", "overwrite", "scores", "report"))
-    cluster = dict(data.get("cluster", {}))
-    _known(where, "cluster", cluster, ("address", "partitions"))
-    partitions = _get(where, "cluster", cluster, "partitions", int, None)
-    if partitions is not None and partitions < 1:
-        _fail(where, "cluster", "partitions", f"got {partitions}", "use 1 or more")
+    cluster = _cluster(where, dict(data.get("cluster", {})))
     return Spec(
         input=_input(where, dict(data["input"]), base),
         space=_space(where, dict(data.get("space", {}))),
@@ -344,8 +375,8 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
             scores=_get(where, "output", output, "scores", bool, True),
             report=_get(where, "output", output, "report", bool, True),
         ),
-        run=_run(where, dict(data.get("run", {}))),
-        cluster=ClusterSettings(_get(where, "cluster", cluster, "address", str, None), partitions),
+        run=_run(where, dict(data.get("run", {})), cluster.address),
+        cluster=cluster,
         source=source,
         sha256=hashlib.sha256(text.encode()).hexdigest() if text else "",
         raw=data,
