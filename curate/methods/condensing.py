@@ -137,6 +137,9 @@ def fcnn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int =
     the row order, needs no seed, and is consistent. Each step compares rows
     only with the members that joined since (Angiulli 2007); ``step`` of a
     removed row is the number of steps. Prefer it to CNN for large inputs.
+    One difference from the paper's pseudo-code: of two equally near members
+    the one at the lower position counts, as everywhere in curate (the paper
+    keeps the one that joined first); without ties the two agree.
 
     Examples
     --------
