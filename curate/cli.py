@@ -146,6 +146,7 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true")
     p.set_defaults(func=cmd_demo)
     __import__("curate.evaluate", fromlist=["register"]).register(sub)
+    __import__("curate.review", fromlist=["register"]).register(sub)
     return parser
 
 
