@@ -75,15 +75,34 @@ def cmd_why(args: argparse.Namespace) -> int:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
-    from curate.pipeline import _check_k, prepare
+    from curate.pipeline import check_stages, prepare
 
     spec = _load(args)
     prep = prepare(spec)
-    for stage in spec.stages:
-        _check_k(stage, prep.space.n)
+    check_stages(prep)
     print(f"{spec.source}: pipeline file and input are valid: {prep.frame.height} rows, "
           f"{int((~prep.valid).sum())} would be quarantined, {len(prep.features)} features, "
           f"{len(spec.stages)} stages")
+    return 0
+
+
+def cmd_distances(args: argparse.Namespace) -> int:
+    from curate.methods.near import distance_profile
+    from curate.pipeline import prepare
+
+    prep = prepare(_load(args))
+    profile = distance_profile(prep.space, prep.space_labels, radii=args.radius)
+    if args.json:
+        print(json.dumps(profile, indent=2))
+        return 0
+    for key, values in profile.items():
+        if key == "candidates":
+            print("candidate radius   rows with a same-label row within   would remove   conflicting")
+            for c in values:
+                print(f"  {c['radius']:<16.4g} {c['rows_with_same_label_within']:>30} "
+                      f"{c['would_remove']:>14} {c['conflicting_rows']:>13}")
+        else:
+            print(f"{key}: {json.dumps(values)}")
     return 0
 
 
@@ -136,6 +155,12 @@ def _parser() -> argparse.ArgumentParser:
     p = sub.add_parser("check", help="check the pipeline file and the input, select nothing")
     p.add_argument("pipeline")
     p.set_defaults(func=cmd_check)
+    p = sub.add_parser("distances", help="nearest-neighbour distances, to choose a near-copy radius")
+    p.add_argument("pipeline")
+    p.add_argument("--radius", type=float, action="append",
+                   help="a candidate radius to try (repeatable)")
+    p.add_argument("--json", action="store_true")
+    p.set_defaults(func=cmd_distances)
     p = sub.add_parser("methods", help="list every method with its parameters")
     p.add_argument("--json", action="store_true")
     p.set_defaults(func=cmd_methods)
@@ -154,9 +179,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the `curate` command; returns the exit code."""
     args = _parser().parse_args(argv)
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("default")
-            return int(args.func(args))
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                return int(args.func(args))
+            finally:
+                for item in caught:
+                    if issubclass(item.category, UserWarning):
+                        print(f"warning: {item.message}", file=sys.stderr)
     except CurateError as err:
         print(f"{type(err).__name__}: {err}", file=sys.stderr)
         return err.exit_code

@@ -57,6 +57,7 @@ class RunResult:
     prepared: Prepared
     kept_positions: np.ndarray
     scores: dict[str, np.ndarray] = field(default_factory=dict)
+    spared: pl.DataFrame | None = None
 
 
 def _labels_of_valid(frame: pl.DataFrame, label: str) -> np.ndarray:
@@ -137,11 +138,23 @@ def _removable(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) 
     return mask
 
 
-def _check_k(stage: StageSettings, n: int) -> None:
+def _check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> None:
     k = stage.params.get("k")
-    if isinstance(k, int) and k >= n:
+    if not isinstance(k, int):
+        return
+    n = len(labels)
+    if k >= n:
         raise UsageError(f"stage {stage.name!r}: k = {k} but only {n} rows reach this stage",
                          hint=f"set k below {n} (k counts neighbours, the row itself excluded)")
+    values, counts = np.unique(labels[removable].astype(str), return_counts=True)
+    sizes = dict(zip(*np.unique(labels.astype(str), return_counts=True), strict=True))
+    small = [str(v) for v in values if sizes[v] <= k]
+    if small and METHODS[stage.method].family in NEIGHBOUR_FAMILIES:
+        raise UsageError(f"stage {stage.name!r}: k = {k} is not below the size of class "
+                         f"{small[0]!r} ({sizes[small[0]]} rows), so its rows cannot outvote "
+                         "their neighbours",
+                         hint=f"lower k below {sizes[small[0]]}, or keep that class out of reach "
+                              "with classes = \"all-but-smallest\" or a list of classes")
 
 
 def _safety(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
@@ -151,7 +164,7 @@ def _safety(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
     values, entering = np.unique(labels.astype(str), return_counts=True)
     leaving = dict(zip(*np.unique(labels[removed_local].astype(str), return_counts=True),
                        strict=True))
-    for value, total in zip(values, entering, strict=True):
+    for value, total in zip(values.tolist(), entering, strict=True):
         share = leaving.get(value, 0) / total
         if share > stage.max_removed_share:
             rows = [ids[i] for i in removed_local if str(labels[i]) == value]
@@ -164,13 +177,21 @@ def _safety(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
                      "(condensing stages usually remove most rows)")
 
 
+def check_stages(prep: Prepared) -> None:
+    """Check every stage's parameters against the rows that the first stage would get."""
+    for stage in prep.spec.stages:
+        removable = _removable(stage, prep.space_labels, prep.protected)
+        if METHODS[stage.method].uses_neighbours:
+            _check_k(stage, prep.space_labels, removable)
+
+
 def run_stage(stage: StageSettings, space: Space, labels: np.ndarray, protected: np.ndarray,
               seed: int) -> Selection:
     """Run one stage's method on ``space`` (rows still kept) and return its selection."""
     info = METHODS[stage.method]
-    if info.uses_neighbours:
-        _check_k(stage, space.n)
     removable = _removable(stage, labels, protected)
+    if info.uses_neighbours:
+        _check_k(stage, labels, removable)
     stage_seed = stage.seed if stage.seed is not None else seed
     if space.engine.cluster is not None:
         from curate.distributed import run_on_cluster
@@ -209,16 +230,30 @@ class StageOutcome:
 
 
 def _record(prep: Prepared, audit: AuditBuilder, stage: StageSettings, active: np.ndarray,
-            sel: Selection) -> np.ndarray:
-    """Map a selection to input positions and append its audit records; return removed positions."""
+            sel: Selection, only: np.ndarray | None = None) -> np.ndarray:
+    """Map a selection to input positions and append its audit records; return removed positions.
+
+    ``only`` limits the records to those local positions (for rows a stage was kept from removing).
+    """
     to_input = prep.valid_positions[active]
-    removed = to_input[sel.removed]
-    audit.add(stage=stage.name, method=stage.method, positions=removed, reason=sel.reason,
-              detail=sel.detail, neighbours=[to_input[n] for n in sel.neighbours],
-              distances=sel.distances,
-              kept_as=np.where(sel.kept_as >= 0, to_input[np.maximum(sel.kept_as, 0)], -1),
-              step=sel.step)
+    pick = np.arange(len(sel.removed)) if only is None else np.flatnonzero(np.isin(sel.removed, only))
+    removed = to_input[sel.removed[pick]]
+    audit.add(stage=stage.name, method=stage.method, positions=removed,
+              reason=[sel.reason[i] for i in pick], detail=[sel.detail[i] for i in pick],
+              neighbours=[to_input[sel.neighbours[i]] for i in pick],
+              distances=[sel.distances[i] for i in pick],
+              kept_as=np.where(sel.kept_as[pick] >= 0, to_input[np.maximum(sel.kept_as[pick], 0)], -1),
+              step=sel.step[pick])
     return removed
+
+
+def _spared(prep: Prepared, spared: AuditBuilder, stage: StageSettings, active: np.ndarray,
+            sub: Space, labels: np.ndarray, protected: np.ndarray) -> int:
+    """Record which protected rows the stage would have removed, had they not been protected."""
+    if len(protected) == 0:
+        return 0
+    free = run_stage(stage, sub, labels, np.zeros(0, dtype=np.int64), prep.spec.run.seed)
+    return len(_record(prep, spared, stage, active, free, only=protected))
 
 
 def execute(prep: Prepared, progress: Callable[[str], None] | None = None) -> RunResult:
@@ -240,6 +275,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     started = time.perf_counter()
     labels = prep.space_labels
     audit = AuditBuilder(prep.ids, prep.labels)
+    spared = AuditBuilder(prep.ids, prep.labels)
     _quarantine(prep, audit)
     active = np.arange(prep.space.n)
     ids_valid = prep.ids.gather(prep.valid_positions).to_list()
@@ -255,11 +291,13 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         sel = run_stage(stage, sub, stage_labels, protected, prep.spec.run.seed)
         _verify_partition(sel, len(active), stage)
         _safety(stage, stage_labels, sel.removed, [ids_valid[a] for a in active])
-        removed = _record(prep, audit, stage, active, sel)
+        removed_input = _record(prep, audit, stage, active, sel)
+        sel.info["protected_spared"] = _spared(prep, spared, stage, active, sub, stage_labels,
+                                               protected)
         for name, values in sel.scores.items():
             full = scores.setdefault(name, np.full(prep.frame.height, np.nan))
             full[prep.valid_positions[active]] = values
-        outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed,
+        outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed_input,
                                      time.perf_counter() - t0))
         active = active[sel.kept]
         say(f"  removed {len(sel.removed)} rows in {outcomes[-1].seconds:.2f} s")
@@ -268,7 +306,8 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     kept, removed = _split(prep, kept_positions, scores)
     _check_outputs(prep, kept, removed, table)
     summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
-    return RunResult(kept, removed, table, summary, prep, kept_positions, scores)
+    return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
+                     spared.frame(unique_ids=False) if len(prep.protected) else None)
 
 
 def _verify_partition(sel: Selection, n: int, stage: StageSettings) -> None:

@@ -15,16 +15,13 @@ from typing import Any
 from curate.errors import PipelineFileError, UsageError
 from curate.methods import METHODS
 from curate.methods.base import check_params
-from curate.space import EngineSettings, SpaceSettings
+from curate.space import DISTANCES, MISSING_POLICIES, SCALES, EngineSettings, SpaceSettings
 
 __all__ = ["ColumnRule", "InputSettings", "OutputSettings", "RunSettings", "Spec", "StageSettings",
            "load_spec", "spec_from_dict", "COLUMN_TYPES"]
 
 COLUMN_TYPES = ("float", "int", "category", "bool", "string")
 BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
-SCALES = ("range", "zscore", "robust")
-DISTANCES = ("euclidean", "manhattan", "heom", "hvdm")
-MISSING = ("stop", "impute", "far")
 STAGE_KEYS = ("name", "method", "max_removed_share", "classes", "seed")
 
 
@@ -252,12 +249,15 @@ def _space(where: _Where, data: Mapping[str, Any]) -> SpaceSettings:
                 _fail(where, "space", "weights", f"weight of {column!r} is {w!r}",
                       "weights are numbers >= 0")
         weights = {c: float(w) for c, w in weights.items()}
-    return SpaceSettings(
-        scale=_get(where, "space", data, "scale", str, "range", SCALES),
-        distance=_get(where, "space", data, "distance", str, "euclidean", DISTANCES),
-        missing=_get(where, "space", data, "missing", str, "stop", MISSING),
-        weights=weights,  # type: ignore[arg-type]
-    )
+    try:
+        return SpaceSettings(
+            scale=_get(where, "space", data, "scale", str, "range", SCALES),
+            distance=_get(where, "space", data, "distance", str, "euclidean", DISTANCES),
+            missing=_get(where, "space", data, "missing", str, "stop", MISSING_POLICIES),
+            weights=weights,  # type: ignore[arg-type]
+        )
+    except PipelineFileError as err:
+        raise PipelineFileError(f"{where.at('space')}: {err.message}", hint=err.hint) from None
 
 
 def _classes(where: _Where, body: Mapping[str, Any], index: int) -> str | tuple[Any, ...]:

@@ -266,7 +266,7 @@ NEAR = MethodInfo(
 )
 
 HARDNESS = MethodInfo(
-    key="hardness", name="instance hardness, k-disagreeing neighbours (kDN)", family="editing",
+    key="hardness", name="instance hardness, k-disagreeing neighbours (kDN)", family="scores",
     reference="Smith, Martinez and Giraud-Carrier 2014",
     purpose="score each row by the share of its k nearest neighbours with another label; "
             "optionally remove rows at or above a threshold",
