@@ -163,6 +163,9 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         frame, kinds = self._features(X)
         labels = _labels(y)
         check_consistent_length(frame, labels)
+        if info.uses_neighbours and frame.height < 2:
+            raise ValueError(f"method {info.key!r} compares rows with their neighbours, but got "
+                             f"n_samples = {frame.height}; give two or more rows")
         if info.family in NEIGHBOUR_FAMILIES and len(np.unique(labels)) < 2:
             raise ValueError(f"method {info.key!r} compares classes, but y has one class only "
                              f"({labels[0]!r}); give two or more classes")
