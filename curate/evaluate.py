@@ -15,6 +15,10 @@ values included) and is the search that is timed. Its votes follow
 scikit-learn's ``KNeighborsClassifier`` (uniform weights, ties to the smallest
 class); the tests check its fold scores against ``cross_val_score``. Any other
 scikit-learn classifier, named by import path, is fitted on the embedded matrix.
+
+A stage that removes more of a class than its ``max_removed_share`` stops a
+run; in an evaluation it is counted (``over_limit``) and the fold goes on, since
+nothing is written and the point is to measure what the stages do.
 """
 
 from __future__ import annotations
@@ -160,19 +164,28 @@ def _fold_spaces(setup: _Setup, train: np.ndarray, test: np.ndarray,
 
 
 def _curate(setup: _Setup, space: Space, labels: np.ndarray, ids: list[Any],
-            protected: np.ndarray) -> tuple[np.ndarray, list[np.ndarray]]:
-    """Run the stages on one fold's training rows, as a run would; return kept rows and removals."""
+            protected: np.ndarray) -> tuple[np.ndarray, list[np.ndarray], list[str]]:
+    """Run the stages on one fold's training rows, as a run would.
+
+    Returns the kept rows, each stage's removals and the stages that went over
+    their ``max_removed_share``. A run stops there; an evaluation only
+    measures, so it goes on and reports the breach.
+    """
     spec = setup.prep.spec
     active = np.arange(space.n)
     removed: list[np.ndarray] = []
+    over: list[str] = []
     for stage in spec.stages:
         stage_labels = labels[active]
         sel = run_stage(stage, space.subset(active), stage_labels,
                         np.flatnonzero(np.isin(active, protected)), spec.run.seed)
-        _safety(stage, stage_labels, sel.removed, [ids[a] for a in active])
+        try:
+            _safety(stage, stage_labels, sel.removed, [ids[a] for a in active])
+        except SafetyLimitError:
+            over.append(stage.name)
         removed.append(active[sel.removed])
         active = active[sel.kept]
-    return np.sort(active), removed
+    return np.sort(active), removed, over
 
 
 def _metrics(truth: np.ndarray, predicted: np.ndarray) -> dict[str, float]:
@@ -213,12 +226,8 @@ def _fold(setup: _Setup, repeat: int, number: int, train: np.ndarray,
         y_train, flipped = stats.flip_labels(y_train, setup.noise, [setup.seed, repeat, number],
                                              setup.towards)
     space_train, space_test = _fold_spaces(setup, train, test, y_train)
-    try:
-        kept, removed = _curate(setup, space_train, y_train, [setup.ids[i] for i in train],
-                                np.flatnonzero(np.isin(train, setup.prep.protected)))
-    except SafetyLimitError as err:
-        raise SafetyLimitError(f"repeat {repeat + 1}, fold {number + 1}: {err.message}",
-                               hint=err.hint) from None
+    kept, removed, over = _curate(setup, space_train, y_train, [setup.ids[i] for i in train],
+                                  np.flatnonzero(np.isin(train, setup.prep.protected)))
     stacked = _stack(space_train, space_test)
     scores: dict[Key, dict[str, float]] = {}
     clipped: set[Key] = set()
@@ -236,7 +245,7 @@ def _fold(setup: _Setup, repeat: int, number: int, train: np.ndarray,
     faults = None if setup.faults is None else setup.faults[train]
     return FoldOutcome(len(train), len(test), len(kept),
                        stats.majority_accuracy(labels[train], y_test), scores, clipped, lookup,
-                       removed, flipped, faults)
+                       removed, flipped, faults, tuple(over))
 
 
 def _summarise(setup: _Setup, folds: list[FoldOutcome], n_folds: int, repeats: int,
@@ -260,6 +269,8 @@ def _summarise(setup: _Setup, folds: list[FoldOutcome], n_folds: int, repeats: i
                    "full_ms_per_1000": float(np.mean([f.lookup_ms[False] for f in folds])),
                    "curated_ms_per_1000": float(np.mean([f.lookup_ms[True] for f in folds]))},
         "best_k": stats.best_k(records), "results": records, "noise": None, "truth": None,
+        "over_limit": {name: sum(name in f.over_limit for f in folds) for name in names
+                       if any(name in f.over_limit for f in folds)},
     }
     if setup.noise > 0:
         result["noise"] = {"rate": setup.noise, "towards": setup.towards,
@@ -386,8 +397,9 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
     Returns
     -------
     dict with ``folds``, ``repeats``, ``baseline_accuracy``, ``results`` (one
-    record per model, k and curated or not), ``best_k``, ``lookup``, ``noise``
-    and ``truth`` (None unless asked), all JSON-safe.
+    record per model, k and curated or not), ``best_k``, ``lookup``,
+    ``over_limit`` (stage name: folds over its limit), ``noise`` and ``truth``
+    (None unless asked), all JSON-safe.
 
     Examples
     --------

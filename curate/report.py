@@ -238,6 +238,14 @@ def _noise(e: Mapping[str, Any]) -> str:
     return "\n".join(parts)
 
 
+def _over_limit(e: Mapping[str, Any]) -> list[str]:
+    """One sentence per stage that went over its max_removed_share in some folds."""
+    total = e["folds"] * e["repeats"]
+    return [f"stage {name!r} removed more of a class than its max_removed_share in {n} of "
+            f"{total} folds: a run on such data stops there; the numbers show what it removed "
+            "anyway" for name, n in (e.get("over_limit") or {}).items()]
+
+
 def _evaluation(e: Mapping[str, Any]) -> str:
     from curate.plots import accuracy_plot
 
@@ -265,7 +273,9 @@ def _evaluation(e: Mapping[str, Any]) -> str:
     if any(r["k"] is not None for r in e["results"]):
         plot = _image(accuracy_plot(e["results"], e["baseline_accuracy"]),
                       "accuracy against k, with and without curation")
-    return intro + facts + table(head, rows) + best_text + plot + _noise(e)
+    warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
+                       for w in _over_limit(e))
+    return intro + warnings + facts + table(head, rows) + best_text + plot + _noise(e)
 
 
 def _cautions() -> str:
@@ -356,6 +366,7 @@ def evaluation_text(e: Mapping[str, Any]) -> str:
                      f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['macro_f1'], 9)}"
                      f"{_fixed(r['kept_share'], 7, 2)}{_fixed(r.get('accuracy_difference'), 8, 3, True)}"
                      f"{_fixed(r.get('p_value'), 8)}")
+    lines += [f"warning: {w}" for w in _over_limit(e)]
     if e["best_k"]:
         lines.append(f"best k: {e['best_k'].get('uncurated')} without curation, "
                      f"{e['best_k'].get('curated')} with curation")

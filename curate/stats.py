@@ -172,7 +172,8 @@ class FoldOutcome:
     per 1,000 neighbour queries against the full (False) and curated (True)
     training rows; ``removed`` each stage's removed training positions;
     ``flipped`` the mask of flipped labels and ``faults`` the known fault kind
-    ("" for none) of each training row, when asked for.
+    ("" for none) of each training row, when asked for; ``over_limit`` the
+    stages that removed more of a class than their ``max_removed_share``.
 
     Examples
     --------
@@ -191,6 +192,7 @@ class FoldOutcome:
     removed: list[np.ndarray]
     flipped: np.ndarray | None
     faults: np.ndarray | None
+    over_limit: tuple[str, ...] = ()
 
     def _mask(self, rows: np.ndarray) -> np.ndarray:
         mask = np.zeros(self.n_train, dtype=bool)
