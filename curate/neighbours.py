@@ -4,32 +4,156 @@ One interface: neighbours of query rows among reference rows of a
 :class:`~curate.space.Space`, optionally excluding each query row itself,
 distances returned, ties in distance broken by the lower position so that
 results never depend on the backend or the chunk size.
+
+Backends (``space.engine.backend``): ``brute`` (direct distances, the slow
+obvious reference), ``sklearn`` (scikit-learn's NearestNeighbors), ``faiss``
+(a flat float32 index), ``fast`` (our compiled engine), ``approximate``
+(an HNSW graph, opt-in, see :func:`engine_report` for its measured recall)
+and ``auto``, which picks one by size, dimension and metric and says why
+(:func:`choose_backend`). All exact backends return identical neighbours and
+bitwise identical distances: candidates found in lower precision are always
+ranked by exact float64 distance. A metric other than Euclidean or Manhattan
+(a space whose distance is not plain Lp) always goes through chunked
+:meth:`Space.distances`.
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy.spatial.distance import cdist
 
+from curate.engine_plan import Request, make_request, plan_for
+from curate.errors import UsageError
+
 if TYPE_CHECKING:
     from curate.space import Space
 
-__all__ = ["kneighbors", "radius_neighbors"]
+__all__ = ["BACKENDS", "EngineReport", "NeighbourCountError", "choose_backend", "engine_report",
+           "kneighbors", "pairwise", "radius_neighbors"]
+
+BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
+LP_METRICS = ("euclidean", "manhattan")
+SMALL_PAIRS = 2_000_000  # below this many pairs one direct block is quickest
+TREE_DIMS = 8  # up to this many columns, scikit-learn's trees prune well
 
 _SCIPY_METRIC = {"euclidean": "euclidean", "manhattan": "cityblock"}
+Pairs = tuple[list[np.ndarray], list[np.ndarray]]
 
 
-def _positions(space: Space, which: np.ndarray | None) -> np.ndarray:
-    if which is None:
-        return np.arange(space.n, dtype=np.int64)
-    return np.asarray(which, dtype=np.int64)
+class NeighbourCountError(UsageError, ValueError):
+    """More neighbours were asked for than there are reference rows."""
 
 
-def _chunk_rows(space: Space, n_ref: int) -> int:
-    budget = space.engine.memory_mb * 2**20 / 4  # several temporaries per block
+def choose_backend(space: Space, n_queries: int | None = None,
+                   n_reference: int | None = None) -> tuple[str, str]:
+    """Return the backend a query will use and the reason, in words.
+
+    Examples
+    --------
+    >>> from curate.space import EngineSettings, Space
+    >>> s = Space.from_matrix(np.zeros((10, 3)))
+    >>> choose_backend(s)[0]
+    'brute'
+    >>> s = Space.from_matrix(np.zeros((10, 3)), engine=EngineSettings(backend="fast"))
+    >>> choose_backend(s)
+    ('fast', "asked for: backend = 'fast'")
+    """
+    asked = space.engine.backend
+    if asked not in BACKENDS:
+        raise UsageError(f"unknown neighbour backend {asked!r}",
+                         hint="use one of " + ", ".join(repr(b) for b in BACKENDS))
+    nq = space.n if n_queries is None else n_queries
+    nr = space.n if n_reference is None else n_reference
+    dims = space.matrix.shape[1]
+    if space.metric not in LP_METRICS:
+        return "brute", (f"distance {space.metric!r} is not plain Lp distance: "
+                         "direct distances in chunks")
+    if asked == "approximate" and space.metric == "manhattan":
+        return "fast", "the approximate index has no Manhattan distance: exact fast engine"
+    if asked != "auto":
+        return asked, f"asked for: backend = {asked!r}"
+    if nq * nr <= SMALL_PAIRS:
+        return "brute", f"small: {nq} x {nr} pairs fit in one direct block"
+    if dims <= TREE_DIMS:
+        return "sklearn", f"{dims} columns: scikit-learn's trees prune most pairs"
+    return "fast", f"{nq} x {nr} pairs in {dims} columns: compiled exact engine"
+
+
+def _check_k(k: int, req: Request, exclude_self: bool) -> None:
+    available = len(req.reference) - (1 if exclude_self else 0)
+    if k < 1 or k > available:
+        raise NeighbourCountError(f"asked for {k} neighbours among {available} rows",
+                                  hint="lower k or keep more rows in the stage")
+
+
+def _chunk_rows(memory_mb: int, n_ref: int) -> int:
+    budget = memory_mb * 2**20 / 4  # several temporaries per block
     return max(1, min(8192, int(budget // max(1, n_ref * 8))))
+
+
+def _brute_blocks(space: Space, req: Request):  # type: ignore[no-untyped-def]
+    """Yield (start, distances) per block of queries; the query's own row set to inf."""
+    step = _chunk_rows(space.engine.memory_mb, len(req.reference))
+    for start in range(0, len(req.queries), step):
+        rows = np.arange(start, min(len(req.queries), start + step))
+        dist = space.distances(req.queries[rows], req.reference)
+        own = req.self_index[rows]
+        dist[np.flatnonzero(own >= 0), own[own >= 0]] = np.inf
+        yield start, dist
+
+
+def _brute_knn(space: Space, req: Request, k: int) -> tuple[np.ndarray, np.ndarray]:
+    out_d = np.empty((len(req.queries), k))
+    out_i = np.empty((len(req.queries), k), dtype=np.int64)
+    for start, dist in _brute_blocks(space, req):
+        kth = np.partition(dist, k - 1, axis=1)[:, k - 1:k]
+        rows, cols = np.nonzero(dist <= kth)  # the k nearest and every row tied with the k-th
+        order = np.lexsort((cols, dist[rows, cols], rows))
+        first = np.searchsorted(rows[order], np.arange(len(dist)))
+        take = order[first[:, None] + np.arange(k)]
+        out_d[start:start + len(dist)] = dist[rows[take], cols[take]]
+        out_i[start:start + len(dist)] = req.reference[cols[take]]
+    return out_d, out_i
+
+
+def _brute_radius(space: Space, req: Request, radius: float) -> Pairs:
+    dists: list[np.ndarray] = []
+    idx: list[np.ndarray] = []
+    for _, dist in _brute_blocks(space, req):
+        rows, cols = np.nonzero(dist <= radius)
+        order = np.lexsort((cols, dist[rows, cols], rows))
+        bounds = np.searchsorted(rows[order], np.arange(len(dist) + 1))
+        for row in range(len(dist)):
+            pick = order[bounds[row]:bounds[row + 1]]
+            dists.append(dist[row, cols[pick]])
+            idx.append(req.reference[cols[pick]])
+    return dists, idx
+
+
+def _plan(space: Space, req: Request, k: int):  # type: ignore[no-untyped-def]
+    return plan_for(space.engine.memory_mb, len(req.queries), len(req.reference), req.dims, k)
+
+
+def _run_knn(backend: str, space: Space, req: Request, k: int) -> tuple[np.ndarray, np.ndarray]:
+    if backend == "brute":
+        return _brute_knn(space, req, k)
+    if backend == "approximate":
+        from curate.engine_approx import hnsw_kneighbors
+
+        return hnsw_kneighbors(req, k)
+    if backend == "fast":
+        from curate.engine_fast import fast_kneighbors
+
+        return fast_kneighbors(req, k, _plan(space, req, k))
+    from curate import engine_libs
+
+    search = engine_libs.faiss_kneighbors if backend == "faiss" else \
+        engine_libs.sklearn_kneighbors
+    return search(req, k, _plan(space, req, k))
 
 
 def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
@@ -40,11 +164,13 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
     Parameters
     ----------
     space : Space
-        The rows and their distance.
+        The rows and their distance; ``space.engine`` picks the backend and
+        the memory that the query may use beyond the data and the results.
     k : int
         Neighbours per query; fewer reference rows than ``k`` is an error.
     queries, reference : array of positions, optional
-        Positions in ``space``; all rows when omitted.
+        Positions in ``space``; all rows when omitted. Reference positions
+        must be distinct.
     exclude_self : bool
         Leave out the reference row at the query's own position.
 
@@ -61,25 +187,12 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
     >>> i.tolist()
     [[1, 2], [0, 2], [3, 1], [2, 1]]
     """
-    q = _positions(space, queries)
-    r = _positions(space, reference)
-    available = len(r) - (1 if exclude_self else 0)
-    if k > available:
-        raise ValueError(f"asked for {k} neighbours among {available} rows")
-    out_d = np.empty((len(q), k), dtype=np.float64)
-    out_i = np.empty((len(q), k), dtype=np.int64)
-    step = _chunk_rows(space, len(r))
-    for start in range(0, len(q), step):
-        block = q[start:start + step]
-        dist = space.distances(block, r)
-        if exclude_self:
-            dist[block[:, None] == r[None, :]] = np.inf
-        # A stable sort on distance keeps position order among ties, because r is ascending.
-        order = np.argsort(dist, axis=1, kind="stable")[:, :k] if np.all(np.diff(r) > 0) else \
-            np.lexsort((np.broadcast_to(r, dist.shape), dist), axis=1)[:, :k]
-        out_i[start:start + step] = r[order]
-        out_d[start:start + step] = np.take_along_axis(dist, order, axis=1)
-    return out_d, out_i
+    req = make_request(space.matrix, space.metric, queries, reference, exclude_self)
+    _check_k(k, req, exclude_self)
+    if len(req.queries) == 0:
+        return np.empty((0, k)), np.empty((0, k), dtype=np.int64)
+    backend, _ = choose_backend(space, len(req.queries), len(req.reference))
+    return _run_knn(backend, space, req, k)
 
 
 def radius_neighbors(space: Space, radius: float, *, queries: np.ndarray | None = None,
@@ -88,7 +201,8 @@ def radius_neighbors(space: Space, radius: float, *, queries: np.ndarray | None 
     """Return, per query, distances and positions of reference rows within ``radius``.
 
     Rows at exactly ``radius`` count as inside. Each list is ordered by
-    distance, then position.
+    distance, then position. The approximate backend answers radius queries
+    exactly, with the fast engine.
 
     Examples
     --------
@@ -98,24 +212,86 @@ def radius_neighbors(space: Space, radius: float, *, queries: np.ndarray | None 
     >>> [x.tolist() for x in i]
     [[1], [0], []]
     """
-    q = _positions(space, queries)
-    r = _positions(space, reference)
-    dists: list[np.ndarray] = []
-    idx: list[np.ndarray] = []
-    step = _chunk_rows(space, len(r))
-    for start in range(0, len(q), step):
-        block = q[start:start + step]
-        dist = space.distances(block, r)
-        if exclude_self:
-            dist[block[:, None] == r[None, :]] = np.inf
-        for row in range(len(block)):
-            hit = np.flatnonzero(dist[row] <= radius)
-            order = np.lexsort((r[hit], dist[row, hit]))
-            idx.append(r[hit][order])
-            dists.append(dist[row, hit][order])
-    return dists, idx
+    req = make_request(space.matrix, space.metric, queries, reference, exclude_self)
+    if len(req.queries) == 0 or len(req.reference) == 0:
+        return ([np.empty(0) for _ in req.queries],
+                [np.empty(0, dtype=np.int64) for _ in req.queries])
+    backend, _ = choose_backend(space, len(req.queries), len(req.reference))
+    if backend == "brute":
+        return _brute_radius(space, req, radius)
+    plan = _plan(space, req, 1)
+    if backend in ("fast", "approximate"):
+        from curate.engine_fast import fast_radius
+
+        return fast_radius(req, radius, plan)
+    from curate import engine_libs
+
+    search: Callable[..., Pairs] = engine_libs.faiss_radius if backend == "faiss" else \
+        engine_libs.sklearn_radius
+    return search(req, radius, plan)
 
 
 def pairwise(matrix_a: np.ndarray, matrix_b: np.ndarray, metric: str) -> np.ndarray:
-    """Exact distances between two blocks of rows, by direct differences."""
+    """Exact distances between two blocks of rows, by direct differences.
+
+    Examples
+    --------
+    >>> pairwise(np.array([[0.0, 0.0]]), np.array([[3.0, 4.0]]), "manhattan").tolist()
+    [[7.0]]
+    """
     return cdist(matrix_a, matrix_b, metric=_SCIPY_METRIC[metric])
+
+
+@dataclass(frozen=True)
+class EngineReport:
+    """What the engine did for one stage: backend, why, and how exact (for summary.json)."""
+
+    backend: str
+    reason: str
+    exact: bool
+    recall: float
+    sampled: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=np.int64))
+
+    def as_dict(self) -> dict[str, object]:
+        """Plain values for JSON: backend, reason, exact, recall, recall_sample."""
+        return {"backend": self.backend, "reason": self.reason, "exact": self.exact,
+                "recall": self.recall, "recall_sample": int(len(self.sampled))}
+
+
+def engine_report(space: Space, k: int, *, queries: np.ndarray | None = None,
+                  reference: np.ndarray | None = None, exclude_self: bool = True,
+                  seed: int = 0, sample: int = 1000) -> EngineReport:
+    """Say which backend a k-nearest query uses and, if approximate, measure its recall.
+
+    Recall is the share of each sampled query's exact ``k`` nearest (fast
+    exact engine) that the approximate index returns, averaged over up to
+    ``sample`` queries drawn with ``seed``; ``sampled`` holds their positions.
+    Exact backends report recall 1.0 without measuring.
+
+    Examples
+    --------
+    >>> from curate.space import EngineSettings, Space
+    >>> s = Space.from_matrix(np.random.default_rng(0).random((200, 3)),
+    ...                       engine=EngineSettings(backend="approximate"))
+    >>> r = engine_report(s, 3, sample=50)
+    >>> r.backend, r.exact, 0.0 <= r.recall <= 1.0, len(r.sampled)
+    ('approximate', False, True, 50)
+    """
+    req = make_request(space.matrix, space.metric, queries, reference, exclude_self)
+    _check_k(k, req, exclude_self)
+    backend, reason = choose_backend(space, len(req.queries), len(req.reference))
+    if backend != "approximate":
+        return EngineReport(backend, reason, True, 1.0)
+    from curate.engine_approx import hnsw_kneighbors, measure_recall
+    from curate.engine_fast import fast_kneighbors
+
+    rng = np.random.default_rng(seed)
+    pick = np.sort(rng.choice(len(req.queries), size=min(sample, len(req.queries)),
+                              replace=False))
+    sub = req.rows(pick)
+    # The graph depends only on the reference rows and its fixed seed, so these
+    # answers are the ones the full query gives for the sampled rows.
+    _, approx = hnsw_kneighbors(sub, k)
+    _, exact = fast_kneighbors(sub, k, _plan(space, sub, k))
+    measured = measure_recall(approx, exact, sub.queries, k)
+    return EngineReport(backend, reason, False, measured.recall, sub.queries)

@@ -1,0 +1,270 @@
+"""The "fast" exact engine: float32 candidates from matrix-product tiles, exact float64 ranking.
+
+Euclidean distance: centred rows are rounded to float32 and augmented so that
+one matrix product per tile gives ``|r|^2 - 2 q.r`` (the query's own ``|q|^2``
+is the same along a row, so it can be left out of the ranking). A compiled
+scan keeps each query's ``width`` best candidates; the candidates are then
+ranked by exact float64 distance. The float32 values carry a rounding error
+bounded by ``c * u * (|q| + max|r|)^2`` (Higham, *Accuracy and Stability of
+Numerical Algorithms*, 2002, section 3.1: inner products in floating point,
+with ``u = 2**-24`` and ``c = 2(d + 1) + 8``, about twice the bound for a
+length ``d + 1`` product plus the rounding of the inputs). A query whose k-th
+exact distance is not strictly below every outside candidate's lower bound is
+searched again: every reference row whose float32 value could be within the
+k-th distance is collected and ranked exactly, so the result is always exact.
+
+Manhattan distance has no product form: the scans compute exact float64
+distances tile by tile, with no second step.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+
+import numpy as np
+from threadpoolctl import threadpool_limits
+
+from curate.engine_exact import rank_pairs, rerank_fixed
+from curate.engine_kernels import collect_tile, l1_collect, l1_scan, scan_tile
+from curate.engine_plan import Plan, Request
+
+__all__ = ["fast_kneighbors", "fast_radius"]
+
+U32 = 2.0**-24
+RELATIVE = 1e-9  # covers float64 rounding of the exact distances (about d * 2**-53)
+
+
+@dataclass(frozen=True)
+class _Frame:
+    """Centre of the reference rows and their largest centred norm (for the error bound)."""
+
+    mean: np.ndarray
+    rmax: float
+
+
+def _frame(req: Request, plan: Plan) -> _Frame:
+    dims = req.dims
+    if req.metric != "euclidean" or len(req.reference) == 0:
+        return _Frame(np.zeros(dims), 0.0)
+    total = np.zeros(dims)
+    for lo in range(0, len(req.reference), plan.slab):
+        total += req.matrix[req.reference[lo:lo + plan.slab]].sum(axis=0)
+    mean = total / len(req.reference)
+    rmax = 0.0
+    for lo in range(0, len(req.reference), plan.slab):
+        y = req.matrix[req.reference[lo:lo + plan.slab]] - mean
+        rmax = max(rmax, float(np.sqrt(np.einsum("ij,ij->i", y, y).max())))
+    return _Frame(mean, rmax)
+
+
+def _slab(req: Request, frame: _Frame, lo: int, hi: int) -> np.ndarray:
+    rows = req.matrix[req.reference[lo:hi]]
+    if req.metric == "manhattan":
+        return np.ascontiguousarray(rows.T)
+    b32 = (rows - frame.mean).astype(np.float32)
+    out = np.empty((hi - lo, req.dims + 1), dtype=np.float32)
+    out[:, :-1] = b32
+    b64 = b32.astype(np.float64)
+    out[:, -1] = np.einsum("ij,ij->i", b64, b64)
+    return out
+
+
+def _queries(req: Request, frame: _Frame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Augmented float32 queries, their squared norms, and each query's error bound."""
+    a = (req.matrix[req.queries] - frame.mean).astype(np.float32)
+    qa = np.empty((len(a), req.dims + 1), dtype=np.float32)
+    qa[:, :-1] = -2 * a  # exact: a power-of-two scaling
+    qa[:, -1] = 1
+    a64 = a.astype(np.float64)
+    qn = np.einsum("ij,ij->i", a64, a64)
+    bound = (2 * (req.dims + 1) + 8) * U32 * (np.sqrt(qn) + frame.rmax) ** 2
+    return qa, qn, bound
+
+
+def _run(n_rows: int, plan: Plan, task: Callable[[int], object]) -> list[object]:
+    """Run ``task(start)`` for every block of rows, on ``plan.threads`` threads."""
+    starts = range(0, n_rows, plan.block)
+    if plan.threads == 1 or len(starts) == 1:
+        return [task(s) for s in starts]
+    with ThreadPoolExecutor(plan.threads) as pool:
+        return list(pool.map(task, starts))
+
+
+def _gemm_tiles(qa: np.ndarray, slab: np.ndarray, tile: int):  # type: ignore[no-untyped-def]
+    """Yield ``(j0, values)`` for each tile of the slab: one float32 product per tile."""
+    buf = np.empty((len(qa), tile), dtype=np.float32)
+    for j0 in range(0, len(slab), tile):
+        j1 = min(len(slab), j0 + tile)
+        out = buf if j1 - j0 == tile else np.empty((len(qa), j1 - j0), dtype=np.float32)
+        np.matmul(qa, slab[j0:j1].T, out=out)
+        yield j0, out
+
+
+def _best(req: Request, frame: _Frame, plan: Plan, qa: np.ndarray
+          ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Each query's ``plan.width`` best candidates over all slabs, and its final threshold."""
+    n = len(req.queries)
+    dtype = np.float32 if req.metric == "euclidean" else np.float64
+    vals = np.full((n, plan.width), np.inf, dtype=dtype)
+    idx = np.full((n, plan.width), -1, dtype=np.int64)
+    thr = np.full(n, np.inf, dtype=dtype)
+    for lo in range(0, len(req.reference), plan.slab):
+        hi = min(len(req.reference), lo + plan.slab)
+        slab = _slab(req, frame, lo, hi)
+
+        def task(s: int, lo: int = lo, slab: np.ndarray = slab) -> None:
+            r = slice(s, min(n, s + plan.block))
+            if req.metric == "manhattan":
+                l1_scan(req.matrix, req.queries[r], slab, lo, req.self_index[r], vals[r],
+                        idx[r], thr[r], plan.tile)
+                return
+            for j0, values in _gemm_tiles(qa[r], slab, plan.tile):
+                scan_tile(values, lo + j0, req.self_index[r], vals[r], idx[r], thr[r])
+
+        _run(n, plan, task)
+    return vals, idx, thr
+
+
+def _collect_block(req: Request, frame: _Frame, plan: Plan, qa: np.ndarray, thr: np.ndarray,
+                   s: int, lo: int, slab: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    r = slice(s, min(len(req.queries), s + plan.block))
+    out_r = np.empty(4 * plan.block, dtype=np.int64)
+    out_j = np.empty(4 * plan.block, dtype=np.int64)
+    count = 0
+    pieces = [(0, slab)] if req.metric == "manhattan" else _gemm_tiles(qa[r], slab, plan.tile)
+    for j0, values in pieces:
+        while True:  # retry the piece with more room: writes are idempotent
+            if req.metric == "manhattan":
+                new = l1_collect(req.matrix, req.queries[r], values, lo, req.self_index[r],
+                                 thr[r], s, plan.tile, out_r, out_j, count)
+            else:
+                new = collect_tile(values, lo + j0, req.self_index[r], thr[r], s, out_r, out_j,
+                                   count)
+            if new >= 0:
+                count = new
+                break
+            out_r = np.concatenate([out_r[:count], np.empty(2 * len(out_r), np.int64)])
+            out_j = np.concatenate([out_j[:count], np.empty(2 * len(out_j), np.int64)])
+    return out_r[:count], out_j[:count]
+
+
+def _collect(req: Request, frame: _Frame, plan: Plan, qa: np.ndarray, thr: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray]:
+    """All (query, reference index) pairs whose scan value is at most the query's ``thr``."""
+    rows: list[np.ndarray] = []
+    cols: list[np.ndarray] = []
+    for lo in range(0, len(req.reference), plan.slab):
+        hi = min(len(req.reference), lo + plan.slab)
+        slab = _slab(req, frame, lo, hi)
+        for r, j in _run(len(req.queries), plan,  # type: ignore[misc]
+                         lambda s, lo=lo, slab=slab: _collect_block(req, frame, plan, qa, thr,
+                                                                    s, lo, slab)):
+            rows.append(r)
+            cols.append(j)
+    if not rows:
+        return np.empty(0, np.int64), np.empty(0, np.int64)
+    return np.concatenate(rows), np.concatenate(cols)
+
+
+def _scan_bound(req: Request, qn: np.ndarray, bound: np.ndarray, dist: np.ndarray) -> np.ndarray:
+    """Per query, the scan value below which every row within ``dist`` must fall."""
+    if req.metric == "manhattan":
+        return dist.astype(np.float64)
+    with np.errstate(over="ignore", invalid="ignore"):
+        return dist * dist * (1 + RELATIVE) - qn + bound
+
+
+def _scan_dtype(req: Request, thr: np.ndarray) -> np.ndarray:
+    """Thresholds in the scan's precision, rounded up so that no value at the bound is lost."""
+    if req.metric != "euclidean":
+        return thr.astype(np.float64)
+    low = thr.astype(np.float32)
+    return np.where(low.astype(np.float64) < thr, np.nextafter(low, np.float32(np.inf)), low)
+
+
+def _superblock_rows(req: Request, plan: Plan) -> int:
+    """Queries whose candidate buffers are held at once (as much as one thread's tile)."""
+    per_row = plan.width * 12 + (req.dims + 2) * 8
+    return max(plan.block, (plan.block * plan.tile * 8) // per_row)
+
+
+def fast_kneighbors(req: Request, k: int, plan: Plan) -> tuple[np.ndarray, np.ndarray]:
+    """Exact k nearest reference rows of each query (see the module notes).
+
+    Examples
+    --------
+    >>> from curate.engine_plan import make_request, plan_for
+    >>> req = make_request(np.array([[0.0], [1.0], [3.0], [4.0]]), "euclidean", None, None, True)
+    >>> d, i = fast_kneighbors(req, 2, plan_for(64, 4, 4, 1, 2))
+    >>> i.tolist()
+    [[1, 2], [0, 2], [3, 1], [2, 1]]
+    """
+    frame = _frame(req, plan)
+    out_d = np.empty((len(req.queries), k))
+    out_i = np.empty((len(req.queries), k), dtype=np.int64)
+    with threadpool_limits(limits=1, user_api="blas"):
+        step = _superblock_rows(req, plan)
+        for q0 in range(0, len(req.queries), step):
+            rows = np.arange(q0, min(len(req.queries), q0 + step))
+            sub = req.rows(rows)
+            qa, qn, bound = _queries(sub, frame)
+            vals, idx, thr = _best(sub, frame, plan, qa)
+            lower = _lower(sub, thr, qn, bound)
+            d, i, ok = rerank_fixed(sub.matrix, sub.queries, sub.reference, idx, k, lower,
+                                    sub.metric)
+            bad = np.flatnonzero(~ok)
+            if len(bad):
+                d[bad], i[bad] = _widen(sub.rows(bad), frame, plan, qa[bad],
+                                        _scan_bound(sub, qn[bad], bound[bad], d[bad, k - 1]), k)
+            out_d[rows], out_i[rows] = d, i
+    return out_d, out_i
+
+
+def _lower(req: Request, thr: np.ndarray, qn: np.ndarray, bound: np.ndarray) -> np.ndarray:
+    """A lower bound on the exact distance of every row left out of a query's candidates."""
+    t = thr.astype(np.float64)
+    if req.metric == "manhattan":
+        return np.where(np.isinf(t), np.inf, t)  # exact values: the buffer is the answer
+    with np.errstate(invalid="ignore"):
+        low = np.sqrt(np.maximum(t + qn - bound, 0.0)) * (1 - RELATIVE)
+    return np.where(np.isinf(t), np.inf, low)
+
+
+def _widen(req: Request, frame: _Frame, plan: Plan, qa: np.ndarray, thr: np.ndarray, k: int
+           ) -> tuple[np.ndarray, np.ndarray]:
+    """Exact k nearest for queries whose candidate set was not proven complete."""
+    rows, cols = _collect(req, frame, plan, qa, _scan_dtype(req, thr))
+    starts, dist, pos = rank_pairs(req.matrix, req.metric, req.queries, req.reference, rows,
+                                   cols, len(req.queries))
+    take = starts[:-1, None] + np.arange(k)
+    return dist[take], pos[take]
+
+
+def fast_radius(req: Request, radius: float, plan: Plan) -> tuple[list[np.ndarray],
+                                                                   list[np.ndarray]]:
+    """Reference rows within ``radius`` (inclusive) of each query, by distance then position.
+
+    Examples
+    --------
+    >>> from curate.engine_plan import make_request, plan_for
+    >>> req = make_request(np.array([[0.0], [1.0], [3.0]]), "euclidean", None, None, True)
+    >>> d, i = fast_radius(req, 1.0, plan_for(64, 3, 3, 1, 1))
+    >>> [x.tolist() for x in i]
+    [[1], [0], []]
+    """
+    frame = _frame(req, plan)
+    n = len(req.queries)
+    qa, qn, bound = _queries(req, frame)
+    thr = _scan_bound(req, qn, bound, np.full(n, float(radius)))
+    with threadpool_limits(limits=1, user_api="blas"):
+        rows, cols = _collect(req, frame, plan, qa, _scan_dtype(req, thr))
+    starts, dist, pos = rank_pairs(req.matrix, req.metric, req.queries, req.reference, rows,
+                                   cols, n)
+    keep = dist <= radius
+    counts = np.bincount(np.repeat(np.arange(n), np.diff(starts))[keep], minlength=n)
+    bounds = np.concatenate([[0], np.cumsum(counts)])
+    dist, pos = dist[keep], pos[keep]
+    return ([dist[bounds[i]:bounds[i + 1]] for i in range(n)],
+            [pos[bounds[i]:bounds[i + 1]] for i in range(n)])
