@@ -39,8 +39,11 @@ def make_data(rows: int, cols: int = 20, classes: int = 3,
     from sklearn.datasets import make_classification
     from sklearn.preprocessing import MinMaxScaler
 
-    X, y = make_classification(n_samples=rows, n_features=cols, n_informative=max(2, cols // 2),
-                               n_classes=classes, random_state=seed)
+    # scikit-learn needs 2 ** informative >= 2 * classes (two clusters per class)
+    informative = min(cols, max(cols // 2, int(np.ceil(np.log2(2 * classes)))))
+    X, y = make_classification(n_samples=rows, n_features=cols, n_informative=informative,
+                               n_redundant=min(2, cols - informative), n_classes=classes,
+                               random_state=seed)
     return np.ascontiguousarray(MinMaxScaler().fit_transform(X)), np.asarray(y)
 
 
