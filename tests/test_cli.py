@@ -84,8 +84,8 @@ def test_methods_lists_every_key_with_parameters(capsys):
 
 
 def test_demo_runs_end_to_end(tmp_path, capsys):
-    """The demo pipeline on a small demo table; its truth file comes from the generator."""
-    assert main(["demo", "--rows", "1500", "--out", str(tmp_path / "demo"), "--quiet"]) == 0
+    """The demo pipeline at its default size; its truth file comes from the generator."""
+    assert main(["demo", "--rows", "20000", "--out", str(tmp_path / "demo"), "--quiet"]) == 0
     text = capsys.readouterr().out
     assert "injected faults caught" in text and "recall" in text
     run = tmp_path / "demo" / "run"
@@ -124,3 +124,11 @@ def test_a_required_parameter_is_asked_for(make_pipeline, two_blobs, capsys):
     path = make_pipeline(two_blobs, [{"method": "near-duplicates"}])
     assert main(["check", str(path)]) == 2
     assert "'radius' is required" in capsys.readouterr().err
+
+
+def test_demo_at_small_size_stops_before_stripping_a_rare_class(tmp_path, capsys):
+    """At 2,000 rows the rare classes are sparse and ENN would vote most of one out: the
+    safety limit stops the run (exit 4) and no run folder is written."""
+    assert main(["demo", "--rows", "2000", "--out", str(tmp_path / "demo"), "--quiet"]) == 4
+    assert "max_removed_share" in capsys.readouterr().err
+    assert not (tmp_path / "demo" / "run").exists()
