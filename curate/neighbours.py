@@ -191,6 +191,11 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
     _check_k(k, req, exclude_self)
     if len(req.queries) == 0:
         return np.empty((0, k)), np.empty((0, k), dtype=np.int64)
+    if space.engine.cluster is not None:
+        from curate.distributed import kneighbors_on_cluster
+
+        return kneighbors_on_cluster(space, k, queries=req.queries, reference=req.reference,
+                                     exclude_self=exclude_self)
     backend, _ = choose_backend(space, len(req.queries), len(req.reference))
     return _run_knn(backend, space, req, k)
 
@@ -216,6 +221,11 @@ def radius_neighbors(space: Space, radius: float, *, queries: np.ndarray | None 
     if len(req.queries) == 0 or len(req.reference) == 0:
         return ([np.empty(0) for _ in req.queries],
                 [np.empty(0, dtype=np.int64) for _ in req.queries])
+    if space.engine.cluster is not None:
+        from curate.distributed import radius_on_cluster
+
+        return radius_on_cluster(space, radius, queries=req.queries, reference=req.reference,
+                                 exclude_self=exclude_self)
     backend, _ = choose_backend(space, len(req.queries), len(req.reference))
     if backend == "brute":
         return _brute_radius(space, req, radius)
