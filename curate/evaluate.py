@@ -39,7 +39,7 @@ import polars as pl
 from curate import stats
 from curate.errors import InputError, SafetyLimitError, UsageError
 from curate.neighbours import kneighbors
-from curate.pipeline import Prepared, _safety, prepare, run_stage
+from curate.pipeline import Prepared, check_safety, prepare, run_stage
 from curate.space import Space, fit_space
 from curate.spec import Spec
 from curate.stats import KNN, FoldOutcome, Key
@@ -180,7 +180,7 @@ def _curate(setup: _Setup, space: Space, labels: np.ndarray, ids: list[Any],
         sel = run_stage(stage, space.subset(active), stage_labels,
                         np.flatnonzero(np.isin(active, protected)), spec.run.seed)
         try:
-            _safety(stage, stage_labels, sel.removed, [ids[a] for a in active])
+            check_safety(stage, stage_labels, sel.removed, [ids[a] for a in active])
         except SafetyLimitError:
             over.append(stage.name)
         removed.append(active[sel.removed])
@@ -332,9 +332,7 @@ def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], 
 
 def _valid_frame(prep: Prepared) -> pl.DataFrame:
     """The rows that passed the schema, as the schema returned them (the frame the space saw)."""
-    from curate.schema import validate
-
-    return validate(prep.frame, prep.spec.input, prep.ids.to_list()).frame
+    return prep.checked
 
 
 def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,

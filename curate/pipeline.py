@@ -39,6 +39,7 @@ class Prepared:
     space: Space
     space_labels: np.ndarray
     protected: np.ndarray
+    checked: pl.DataFrame
 
     @property
     def valid_positions(self) -> np.ndarray:
@@ -116,7 +117,7 @@ def prepare(spec: Spec) -> Prepared:
     local[np.flatnonzero(validation.valid)] = np.arange(int(validation.valid.sum()))
     return Prepared(spec, frame, ids, frame[spec.input.label], validation.valid,
                     validation.failures, features, kinds, space, labels,
-                    local[protected_input][local[protected_input] >= 0])
+                    local[protected_input][local[protected_input] >= 0], checked)
 
 
 def _removable(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:
@@ -157,7 +158,7 @@ def _check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) ->
                               "with classes = \"all-but-smallest\" or a list of classes")
 
 
-def _safety(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
+def check_safety(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
             ids: list[Any]) -> None:
     if stage.max_removed_share >= 1.0 or len(removed_local) == 0:
         return
@@ -290,7 +291,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         protected = np.flatnonzero(np.isin(active, prep.protected))
         sel = run_stage(stage, sub, stage_labels, protected, prep.spec.run.seed)
         _verify_partition(sel, len(active), stage)
-        _safety(stage, stage_labels, sel.removed, [ids_valid[a] for a in active])
+        check_safety(stage, stage_labels, sel.removed, [ids_valid[a] for a in active])
         removed_input = _record(prep, audit, stage, active, sel)
         sel.info["protected_spared"] = _spared(prep, spared, stage, active, sub, stage_labels,
                                                protected)
