@@ -107,7 +107,7 @@ class ClusterSession:
         """Partitions for condensing stages: as set, else one per worker."""
         if self.settings.partitions:
             return self.settings.partitions
-        return max(1, len(self.client.scheduler_info()["workers"]))
+        return max(1, len(self.client.nthreads()))
 
     def ship(self, key: object, build: Callable[[], object]) -> Any:
         """Send ``build()`` to every worker once per ``key`` object; later calls reuse it.
@@ -149,6 +149,11 @@ class ClusterSession:
         except OSError as err:
             raise ClusterError(f"cluster {self.address}: lost the connection while computing "
                                f"{what} ({type(err).__name__}: {err})", hint=hint) from None
+        except ImportError as err:
+            raise ClusterError(f"cluster {self.address}: a worker could not import {err.name!r} "
+                               f"while computing {what}",
+                               hint="install curate and its dependencies, in the versions used "
+                                    "here, on every worker") from None
         finally:
             for future in futures:
                 future.release()
