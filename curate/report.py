@@ -120,7 +120,11 @@ def _flow(s: Mapping[str, Any]) -> str:
         if s["stages"] else ""
     quarantine = (f'<p class="note">{s["rows_quarantined"]:,} rows failed the schema and left '
                   "before the first stage.</p>" if s["rows_quarantined"] else "")
-    return quarantine + table(head, rows) + picture
+    approximate = "".join(
+        f'<p class="note">Stage {html.escape(str(st["name"]))}: '
+        f'{html.escape(str(st["info"].get("note", "partitioned result")))}</p>'
+        for st in s["stages"] if st.get("info", {}).get("approximate"))
+    return quarantine + table(head, rows) + approximate + picture
 
 
 def _classes(s: Mapping[str, Any]) -> str:

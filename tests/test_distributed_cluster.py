@@ -11,6 +11,7 @@ most one).
 
 from __future__ import annotations
 
+import html
 import json
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -122,6 +123,10 @@ def test_curate_run_with_cluster_section(address: str, tmp_path: Path,
     assert second["info"]["approximate"] is True
     for name in ("kept.parquet", "removed.parquet", "audit.parquet", "report.html"):
         assert (tmp_path / "run" / name).is_file()
+    assert summary["engine"]["cluster"] == address
+    # The report tells the reader that the partitioned result approximates the local one.
+    report = (tmp_path / "run" / "report.html").read_text()
+    assert html.escape(second["info"]["note"]) in report
 
 
 def test_cluster_flag_overrides_the_file(address: str, tmp_path: Path,
