@@ -38,47 +38,64 @@ RELATIVE = 1e-9  # covers float64 rounding of the exact distances (about d * 2**
 
 @dataclass(frozen=True)
 class _Frame:
-    """Centre of the reference rows and their largest centred norm (for the error bound)."""
+    """Centre of the reference rows, their largest centred norm (for the error bound), and
+    the rows converted at a time (bounds the float64 temporaries)."""
 
     mean: np.ndarray
     rmax: float
+    piece: int
 
 
 def _frame(req: Request, plan: Plan) -> _Frame:
-    dims = req.dims
-    if req.metric != "euclidean" or len(req.reference) == 0:
-        return _Frame(np.zeros(dims), 0.0)
+    dims, ref, piece = req.dims, req.reference, plan.block
+    if req.metric != "euclidean" or len(ref) == 0:
+        return _Frame(np.zeros(dims), 0.0, piece)
     total = np.zeros(dims)
-    for lo in range(0, len(req.reference), plan.slab):
-        total += req.matrix[req.reference[lo:lo + plan.slab]].sum(axis=0)
-    mean = total / len(req.reference)
+    for lo in range(0, len(ref), piece):
+        total += req.matrix[ref[lo:lo + piece]].sum(axis=0)
+    mean = total / len(ref)
     rmax = 0.0
-    for lo in range(0, len(req.reference), plan.slab):
-        y = req.matrix[req.reference[lo:lo + plan.slab]] - mean
+    for lo in range(0, len(ref), piece):
+        y = req.matrix[ref[lo:lo + piece]] - mean
         rmax = max(rmax, float(np.sqrt(np.einsum("ij,ij->i", y, y).max())))
-    return _Frame(mean, rmax)
+    return _Frame(mean, rmax, piece)
+
+
+def _augment(req: Request, positions: np.ndarray, frame: _Frame,
+             query: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Centred rows in float32, augmented, and their squared norms (float64).
+
+    Queries become ``[-2a, 1]`` and reference rows ``[b, |b|^2]``, so that one
+    product gives ``|b|^2 - 2 a.b`` (the scaling by -2 is exact).
+    """
+    out = np.empty((len(positions), req.dims + 1), dtype=np.float32)
+    norms = np.empty(len(positions))
+    for lo in range(0, len(positions), frame.piece):
+        part = slice(lo, lo + frame.piece)
+        a = (req.matrix[positions[part]] - frame.mean).astype(np.float32)
+        a64 = a.astype(np.float64)
+        norms[part] = np.einsum("ij,ij->i", a64, a64)
+        out[part, :-1] = -2 * a if query else a
+        out[part, -1] = 1 if query else norms[part]
+    return out, norms
 
 
 def _slab(req: Request, frame: _Frame, lo: int, hi: int) -> np.ndarray:
-    rows = req.matrix[req.reference[lo:hi]]
-    if req.metric == "manhattan":
-        return np.ascontiguousarray(rows.T)
-    b32 = (rows - frame.mean).astype(np.float32)
-    out = np.empty((hi - lo, req.dims + 1), dtype=np.float32)
-    out[:, :-1] = b32
-    b64 = b32.astype(np.float64)
-    out[:, -1] = np.einsum("ij,ij->i", b64, b64)
+    positions = req.reference[lo:hi]
+    if req.metric == "euclidean":
+        return _augment(req, positions, frame, query=False)[0]
+    out = np.empty((req.dims, len(positions)))  # Manhattan: transposed, exact float64
+    for at in range(0, len(positions), frame.piece):
+        out[:, at:at + frame.piece] = req.matrix[positions[at:at + frame.piece]].T
     return out
 
 
 def _queries(req: Request, frame: _Frame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Augmented float32 queries, their squared norms, and each query's error bound."""
-    a = (req.matrix[req.queries] - frame.mean).astype(np.float32)
-    qa = np.empty((len(a), req.dims + 1), dtype=np.float32)
-    qa[:, :-1] = -2 * a  # exact: a power-of-two scaling
-    qa[:, -1] = 1
-    a64 = a.astype(np.float64)
-    qn = np.einsum("ij,ij->i", a64, a64)
+    if req.metric != "euclidean":
+        empty = np.zeros(len(req.queries))
+        return np.empty((0, req.dims + 1), dtype=np.float32), empty, empty
+    qa, qn = _augment(req, req.queries, frame, query=True)
     bound = (2 * (req.dims + 1) + 8) * U32 * (np.sqrt(qn) + frame.rmax) ** 2
     return qa, qn, bound
 
@@ -184,12 +201,6 @@ def _scan_dtype(req: Request, thr: np.ndarray) -> np.ndarray:
     return np.where(low.astype(np.float64) < thr, np.nextafter(low, np.float32(np.inf)), low)
 
 
-def _superblock_rows(req: Request, plan: Plan) -> int:
-    """Queries whose candidate buffers are held at once (as much as one thread's tile)."""
-    per_row = plan.width * 12 + (req.dims + 2) * 8
-    return max(plan.block, (plan.block * plan.tile * 8) // per_row)
-
-
 def fast_kneighbors(req: Request, k: int, plan: Plan) -> tuple[np.ndarray, np.ndarray]:
     """Exact k nearest reference rows of each query (see the module notes).
 
@@ -205,7 +216,7 @@ def fast_kneighbors(req: Request, k: int, plan: Plan) -> tuple[np.ndarray, np.nd
     out_d = np.empty((len(req.queries), k))
     out_i = np.empty((len(req.queries), k), dtype=np.int64)
     with threadpool_limits(limits=1, user_api="blas"):
-        step = _superblock_rows(req, plan)
+        step = plan.rows
         for q0 in range(0, len(req.queries), step):
             rows = np.arange(q0, min(len(req.queries), q0 + step))
             sub = req.rows(rows)
@@ -226,7 +237,9 @@ def _lower(req: Request, thr: np.ndarray, qn: np.ndarray, bound: np.ndarray) -> 
     """A lower bound on the exact distance of every row left out of a query's candidates."""
     t = thr.astype(np.float64)
     if req.metric == "manhattan":
-        return np.where(np.isinf(t), np.inf, t)  # exact values: the buffer is the answer
+        # exact values, scanned in position order: the buffer holds the best rows by
+        # (distance, position), so its first k are the answer
+        return np.full(len(t), np.inf)
     with np.errstate(invalid="ignore"):
         low = np.sqrt(np.maximum(t + qn - bound, 0.0)) * (1 - RELATIVE)
     return np.where(np.isinf(t), np.inf, low)
@@ -255,16 +268,21 @@ def fast_radius(req: Request, radius: float, plan: Plan) -> tuple[list[np.ndarra
     [[1], [0], []]
     """
     frame = _frame(req, plan)
-    n = len(req.queries)
-    qa, qn, bound = _queries(req, frame)
-    thr = _scan_bound(req, qn, bound, np.full(n, float(radius)))
-    with threadpool_limits(limits=1, user_api="blas"):
-        rows, cols = _collect(req, frame, plan, qa, _scan_dtype(req, thr))
-    starts, dist, pos = rank_pairs(req.matrix, req.metric, req.queries, req.reference, rows,
-                                   cols, n)
-    keep = dist <= radius
-    counts = np.bincount(np.repeat(np.arange(n), np.diff(starts))[keep], minlength=n)
-    bounds = np.concatenate([[0], np.cumsum(counts)])
-    dist, pos = dist[keep], pos[keep]
-    return ([dist[bounds[i]:bounds[i + 1]] for i in range(n)],
-            [pos[bounds[i]:bounds[i + 1]] for i in range(n)])
+    dists: list[np.ndarray] = []
+    poss: list[np.ndarray] = []
+    for q0 in range(0, len(req.queries), plan.rows):
+        sub = req.rows(np.arange(q0, min(len(req.queries), q0 + plan.rows)))
+        n = len(sub.queries)
+        qa, qn, bound = _queries(sub, frame)
+        thr = _scan_bound(sub, qn, bound, np.full(n, float(radius)))
+        with threadpool_limits(limits=1, user_api="blas"):
+            rows, cols = _collect(sub, frame, plan, qa, _scan_dtype(sub, thr))
+        starts, dist, pos = rank_pairs(sub.matrix, sub.metric, sub.queries, sub.reference,
+                                       rows, cols, n)
+        keep = dist <= radius
+        counts = np.bincount(np.repeat(np.arange(n), np.diff(starts))[keep], minlength=n)
+        bounds = np.concatenate([[0], np.cumsum(counts)])
+        dist, pos = dist[keep], pos[keep]
+        dists.extend(dist[bounds[i]:bounds[i + 1]] for i in range(n))
+        poss.extend(pos[bounds[i]:bounds[i + 1]] for i in range(n))
+    return dists, poss

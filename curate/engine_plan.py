@@ -92,7 +92,8 @@ def worker_count() -> int:
 class Plan:
     """How a query is cut: rows per task, reference rows per tile and per slab, threads.
 
-    ``width`` is the number of candidates each query keeps while scanning.
+    ``width`` is the number of candidates each query keeps while scanning;
+    ``rows`` the number of queries whose candidates are held at once.
     """
 
     block: int
@@ -100,6 +101,7 @@ class Plan:
     slab: int
     threads: int
     width: int
+    rows: int = 2**62
     memory_mb: int = 1024
 
 
@@ -107,16 +109,18 @@ def plan_for(memory_mb: int, n_query: int, n_ref: int, dims: int, k: int,
              threads: int | None = None) -> Plan:
     """Choose tile sizes so that the temporaries stay within ``memory_mb``.
 
-    A quarter of the budget goes to the converted reference slab, the rest is
-    shared by the threads: each holds one distance tile (float32, sized to
-    stay in a core's cache when the budget allows) and its queries' candidates.
+    Half the budget is shared by the threads (each holds one distance tile,
+    sized to stay in a core's cache when the budget allows, and the float64
+    rows it converts); a quarter holds the converted reference slab and a
+    quarter the candidates of the queries in flight.
 
     Examples
     --------
     >>> p = plan_for(1024, 100_000, 100_000, 20, 4)
     >>> (p.block, p.tile, p.width)
     (1024, 512, 6)
-    >>> plan_for(1, 100_000, 100_000, 20, 4).block * plan_for(1, 1, 10**5, 20, 4).tile < 2**20
+    >>> p = plan_for(1, 100_000, 100_000, 20, 4, threads=2)
+    >>> 2 * p.block * (p.tile * 8 + 3 * 20 * 8) <= 2**19
     True
     """
     budget = max(1, memory_mb) * 2**20
@@ -125,12 +129,12 @@ def plan_for(memory_mb: int, n_query: int, n_ref: int, dims: int, k: int,
     width = k + max(2, k // 2)
     workers = threads if threads is not None else worker_count()
     workers = max(1, min(workers, -(-n_query // 64)))
-    per_thread = budget * 3 // (4 * workers)
+    per_thread = budget // (2 * workers)
     # Tall, narrow tiles measured fastest here: the product runs near its best and the
     # threshold check skips more of each row (1024 x 512 float32 = 2 MiB, one core's cache).
     tile = int(min(512, max(1, n_ref)))
     block = 1024
-    row_bytes = width * 12 + (dims + 2) * 4 + 32
+    row_bytes = 3 * dims * 8  # float64 rows being converted
 
     def cost(b: int, t: int) -> int:
         return b * (t * 8 + row_bytes)
@@ -139,6 +143,7 @@ def plan_for(memory_mb: int, n_query: int, n_ref: int, dims: int, k: int,
         tile //= 2
     while cost(block, tile) > per_thread and block > 1:
         block //= 2
-    slab = max(tile, budget // 4 // ((dims + 2) * 8))
+    slab = max(tile, budget // 4 // ((dims + 1) * 8))
+    rows = max(block, budget // 4 // (width * 12 + (dims + 1) * 4 + 40))
     return Plan(block=block, tile=tile, slab=int(min(slab, max(1, n_ref))), threads=workers,
-                width=width, memory_mb=max(1, memory_mb))
+                width=width, rows=rows, memory_mb=max(1, memory_mb))
