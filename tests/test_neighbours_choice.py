@@ -23,9 +23,10 @@ def _space(rows: int, dims: int, backend: str = "auto", metric: str = "euclidean
 
 
 def test_auto_choice_follows_size_and_dimension() -> None:
-    assert choose_backend(_space(500, 20))[0] == "brute"
+    assert choose_backend(_space(400, 20))[0] == "brute"
     assert choose_backend(_space(50_000, 20))[0] == "fast"
     assert choose_backend(_space(50_000, 3))[0] == "sklearn"
+    assert choose_backend(_space(50_000, 20), 5, 50_000)[0] == "brute"  # a few queries
     backend, reason = choose_backend(_space(50_000, 20, metric="manhattan"))
     assert backend == "fast" and "20 columns" in reason
 
