@@ -25,7 +25,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from benchmarks.common import load_note, make_data, measure, target_line  # noqa: E402
-from curate.neighbours import kneighbors  # noqa: E402
+from curate.neighbours import engine_report, kneighbors  # noqa: E402
 from curate.space import EngineSettings, Space  # noqa: E402
 
 
@@ -58,6 +58,8 @@ def main() -> None:
     parser.add_argument("--k", type=int, default=4)
     parser.add_argument("--memory-mb", type=int, default=1024)
     parser.add_argument("--skip-faiss", action="store_true")
+    parser.add_argument("--approximate", action="store_true",
+                        help="also time the HNSW backend and measure its recall")
     args = parser.parse_args()
     X, _ = make_data(args.rows, cols=args.cols, seed=0)
     print(f"{args.rows} rows x {args.cols} columns, k = {args.k}; {load_note()}")
@@ -66,13 +68,19 @@ def main() -> None:
             "scikit-learn brute": measure(sklearn_brute, X, args.k)}
     if not args.skip_faiss:
         runs["curate faiss"] = measure(curate_search, X, args.k, "faiss", args.memory_mb)
+    if args.approximate:
+        runs["curate approximate"] = measure(curate_search, X, args.k, "approximate",
+                                             args.memory_mb)
+        space = Space.from_matrix(X, "euclidean", EngineSettings("approximate", args.memory_mb))
+        print(f"approximate recall: {engine_report(space, args.k, seed=0).recall:.4f} "
+              "(1,000 sampled queries against the exact engine)")
     base = runs["scikit-learn brute"].seconds
     for name, m in runs.items():
         print(f"{name:20s} {m.seconds:8.2f} s wall  {m.cpu_seconds:8.2f} s cpu  "
               f"peak +{m.peak_mb:7.1f} MiB  sklearn/this {base / m.seconds:5.2f}")
     fast = runs["curate fast"].result
     for name in runs:
-        if name.startswith("curate") and name != "curate fast":
+        if name in ("curate faiss",):
             same = all(np.array_equal(a, b) for a, b in zip(fast, runs[name].result, strict=True))
             print(f"{name} identical to curate fast: {same}")
     k_plus = curate_search(X, args.k + 1, "fast", args.memory_mb)

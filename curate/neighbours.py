@@ -225,8 +225,12 @@ def radius_neighbors(space: Space, radius: float, *, queries: np.ndarray | None 
     >>> [x.tolist() for x in i]
     [[1], [0], []]
     """
+    if not radius >= 0:  # also catches NaN
+        if np.isnan(radius):
+            raise UsageError("the neighbour radius is NaN", hint="give a number >= 0")
+        radius = -1.0  # nothing is within a negative radius
     req = make_request(space.matrix, space.metric, queries, reference, exclude_self)
-    if len(req.queries) == 0 or len(req.reference) == 0:
+    if len(req.queries) == 0 or len(req.reference) == 0 or radius < 0:
         return ([np.empty(0) for _ in req.queries],
                 [np.empty(0, dtype=np.int64) for _ in req.queries])
     if space.engine.cluster is not None:

@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 from neighbour_fixtures import EXACT_BACKENDS, assert_same_lists, reference_radius, tied_matrix
 
+from curate.errors import UsageError
 from curate.neighbours import radius_neighbors
 from curate.space import EngineSettings, Space
 
@@ -39,3 +40,12 @@ def test_radius_of_all_rows_without_subsets() -> None:
         got = radius_neighbors(space, 0.3)
         assert_same_lists(got, reference_radius(matrix, "euclidean", every, every, 0.3, True),
                           every, backend)
+
+
+def test_negative_radius_finds_nothing_and_nan_is_refused() -> None:
+    # Common practice, no source: no distance is below zero; NaN is no radius.
+    space = Space.from_matrix(tied_matrix(seed=14, rows=50))
+    dists, rows = radius_neighbors(space, -1.0)
+    assert all(len(r) == 0 for r in rows) and len(dists) == 50
+    with pytest.raises(UsageError, match="radius is NaN"):
+        radius_neighbors(space, float("nan"))
