@@ -23,6 +23,7 @@ import contextlib
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from typing import TypeVar
 
 import numpy as np
 from threadpoolctl import threadpool_limits
@@ -33,6 +34,7 @@ from curate.engine_plan import Plan, Request
 
 __all__ = ["fast_kneighbors", "fast_radius"]
 
+T = TypeVar("T")
 U32 = 2.0**-24
 RELATIVE = 1e-9  # covers float64 rounding of the exact distances (about d * 2**-53)
 
@@ -109,7 +111,7 @@ def _one_blas_thread() -> contextlib.AbstractContextManager[object]:
     return threadpool_limits(limits=1, user_api="blas")
 
 
-def _run(n_rows: int, plan: Plan, task: Callable[[int], object]) -> list[object]:
+def _run(n_rows: int, plan: Plan, task: Callable[[int], T]) -> list[T]:
     """Run ``task(start)`` for every block of rows, on ``plan.threads`` threads."""
     starts = range(0, n_rows, plan.block)
     if plan.threads == 1 or len(starts) == 1:
@@ -184,9 +186,11 @@ def _collect(req: Request, frame: _Frame, plan: Plan, qa: np.ndarray, thr: np.nd
     for lo in range(0, len(req.reference), plan.slab):
         hi = min(len(req.reference), lo + plan.slab)
         slab = _slab(req, frame, lo, hi)
-        for r, j in _run(len(req.queries), plan,  # type: ignore[misc]
-                         lambda s, lo=lo, slab=slab: _collect_block(req, frame, plan, qa, thr,
-                                                                    s, lo, slab)):
+
+        def task(s: int, lo: int = lo, slab: np.ndarray = slab) -> tuple[np.ndarray, np.ndarray]:
+            return _collect_block(req, frame, plan, qa, thr, s, lo, slab)
+
+        for r, j in _run(len(req.queries), plan, task):
             rows.append(r)
             cols.append(j)
     if not rows:

@@ -37,8 +37,10 @@ class _Centred:
 
     def __init__(self, req: Request, dtype: type, unit: float) -> None:
         self.req = req
-        self.mean = req.matrix[req.reference].mean(axis=0) if len(req.reference) else 0.0
-        self.ref = np.ascontiguousarray(req.matrix[req.reference] - self.mean, dtype=dtype)
+        ref = req.matrix[req.reference]  # the library's own copy of the reference rows
+        self.mean = ref.mean(axis=0) if len(ref) else np.zeros(req.dims)
+        ref -= self.mean
+        self.ref: np.ndarray = np.ascontiguousarray(ref, dtype=dtype)
         self.order = 1 if req.metric == "manhattan" else 2
         self.rmax = float(np.linalg.norm(self.ref.astype(np.float64), ord=self.order,
                                          axis=1).max(initial=0.0))

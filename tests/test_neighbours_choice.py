@@ -47,9 +47,9 @@ def test_bad_requests_name_the_problem() -> None:
     with pytest.raises(ValueError, match="asked for 5 neighbours among 4 rows"):
         kneighbors(space, 5)
     with pytest.raises(UsageError, match="query position 9 is outside"):
-        kneighbors(space, 1, queries=[9])
+        kneighbors(space, 1, queries=np.array([9]))
     with pytest.raises(UsageError, match="reference position 2 is given more than once"):
-        kneighbors(space, 1, reference=[2, 2, 3])
+        kneighbors(space, 1, reference=np.array([2, 2, 3]))
 
 
 @dataclass(frozen=True)
