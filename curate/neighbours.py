@@ -80,6 +80,8 @@ def choose_backend(space: Space, n_queries: int | None = None,
     if space.metric not in LP_METRICS:
         return "brute", (f"distance {space.metric!r} is not plain Lp distance: "
                          "direct distances in chunks")
+    if dims == 0:
+        return "brute", "no feature columns: every distance is 0"
     if asked == "approximate" and space.metric == "manhattan":
         return "fast", "the approximate index has no Manhattan distance: exact fast engine"
     if asked != "auto":
@@ -92,7 +94,7 @@ def choose_backend(space: Space, n_queries: int | None = None,
 
 
 def _check_k(k: int, req: Request, exclude_self: bool) -> None:
-    available = len(req.reference) - (1 if exclude_self else 0)
+    available = max(0, len(req.reference) - (1 if exclude_self else 0))
     if k < 1 or k > available:
         raise NeighbourCountError(f"asked for {k} neighbours among {available} rows",
                                   hint="lower k or keep more rows in the stage")

@@ -74,3 +74,13 @@ def test_other_distances_go_through_space_distances(backend: str) -> None:
     want_r = model.radius_neighbors(matrix[:20], radius=0.05, sort_results=True)[1]
     for row in range(20):
         assert sorted(i_r[row].tolist()) == sorted(set(want_r[row].tolist()) - {row}), row
+
+
+@pytest.mark.parametrize("backend", ["auto", "sklearn", "faiss", "fast", "approximate"])
+def test_no_columns_means_every_row_ties(backend: str) -> None:
+    # With no feature columns every distance is 0 (the empty sum), so the nearest are
+    # simply the lowest other positions (the promised tie rule).
+    space = Space.from_matrix(np.zeros((600, 0)), engine=EngineSettings(backend, 1))
+    assert choose_backend(space)[0] == "brute"
+    dist, pos = kneighbors(space, 2, queries=np.array([0, 1, 599]))
+    assert pos.tolist() == [[1, 2], [0, 2], [0, 1]] and not dist.any()
