@@ -100,9 +100,10 @@ def main() -> None:
 def compare(args: argparse.Namespace) -> None:
     """The two comparisons, with the figures printed as they come."""
 
-    warm_x, warm_y = data(300, args.cols, args.seed + 1)
+    # Large enough that the neighbour engine takes its compiled path too.
+    warm_x, warm_y = data(3000, args.cols, args.seed + 1)
     start = time.perf_counter()
-    cnn(Space.from_matrix(warm_x), warm_y, removable=np.ones(300, bool))
+    cnn(Space.from_matrix(warm_x), warm_y, removable=np.ones(len(warm_y), bool))
     print(f"warm-up (compiled kernels loaded or built): {time.perf_counter() - start:.1f} s")
 
     X, y = data(args.rows, args.cols, args.seed)

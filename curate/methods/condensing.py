@@ -166,7 +166,6 @@ def fcnn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int =
     return out.selection(info={"steps": steps})
 
 
-
 def _walk(space: Space, q: int, lists: np.ndarray, dists: np.ndarray, start: int,
           alive: np.ndarray) -> tuple[int, float, int, tuple[np.ndarray, np.ndarray] | None]:
     """Row q's nearest alive member: (member, distance, list index, fresh list or None)."""
