@@ -36,6 +36,7 @@ __all__ = ["fast_kneighbors", "fast_radius"]
 
 T = TypeVar("T")
 U32 = 2.0**-24
+TINY32 = 2.0**-126  # float32's smallest normal number: bounds what underflow can lose
 RELATIVE = 1e-9  # covers float64 rounding of the exact distances (about d * 2**-53)
 
 
@@ -99,7 +100,7 @@ def _queries(req: Request, frame: _Frame) -> tuple[np.ndarray, np.ndarray, np.nd
         empty = np.zeros(len(req.queries))
         return np.empty((0, req.dims + 1), dtype=np.float32), empty, empty
     qa, qn = _augment(req, req.queries, frame, query=True)
-    bound = (2 * (req.dims + 1) + 8) * U32 * (np.sqrt(qn) + frame.rmax) ** 2
+    bound = (2 * (req.dims + 1) + 8) * (U32 * (np.sqrt(qn) + frame.rmax) ** 2 + TINY32)
     return qa, qn, bound
 
 

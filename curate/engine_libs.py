@@ -45,12 +45,14 @@ class _Centred:
         self.rmax = float(np.linalg.norm(self.ref.astype(np.float64), ord=self.order,
                                          axis=1).max(initial=0.0))
         self.factor = (2 * (req.dims + 2) + 8) * unit
+        # what underflow can lose: the smallest normal number of the library's precision
+        self.tiny = (2 * (req.dims + 2) + 8) * float(np.finfo(dtype).tiny)
 
     def queries(self, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Centred query rows (library precision) and each one's rounding bound."""
         q = self.req.matrix[self.req.queries[rows]] - self.mean
         norm = np.linalg.norm(q, ord=self.order, axis=1)
-        bound = self.factor * (norm + self.rmax) ** self.order
+        bound = self.factor * (norm + self.rmax) ** self.order + self.tiny
         return np.ascontiguousarray(q, dtype=self.ref.dtype), bound
 
     def lower(self, last: np.ndarray, bound: np.ndarray) -> np.ndarray:

@@ -47,6 +47,7 @@ LP_METRICS = ("euclidean", "manhattan")
 SMALL_PAIRS = 250_000  # up to this many pairs one direct block is quickest
 FEW_QUERIES = 8
 TREE_DIMS = 6  # up to this many columns, scikit-learn's trees prune well
+FLOAT32_SAFE = 1e15  # squares up to 1e30 times a few columns: far below float32's 3.4e38
 
 _SCIPY_METRIC = {"euclidean": "euclidean", "manhattan": "cityblock"}
 Pairs = tuple[list[np.ndarray], list[np.ndarray]]
@@ -76,13 +77,20 @@ def choose_backend(space: Space, n_queries: int | None = None,
                          hint="use one of " + ", ".join(repr(b) for b in BACKENDS))
     nq = space.n if n_queries is None else n_queries
     nr = space.n if n_reference is None else n_reference
-    dims = space.matrix.shape[1]
-    if space.metric not in LP_METRICS:
-        return "brute", (f"distance {space.metric!r} is not plain Lp distance: "
-                         "direct distances in chunks")
+    backend, reason = _pick(asked, space.metric, nq, nr, space.matrix.shape[1])
+    float32 = backend in ("faiss", "approximate") or (backend, space.metric) == ("fast",
+                                                                             "euclidean")
+    if float32 and not _fits_float32(space.matrix):
+        return "sklearn", "values beyond float32's safe range (1e15): scikit-learn in float64"
+    return backend, reason
+
+
+def _pick(asked: str, metric: str, nq: int, nr: int, dims: int) -> tuple[str, str]:
+    if metric not in LP_METRICS:
+        return "brute", f"distance {metric!r} is not plain Lp distance: direct distances in chunks"
     if dims == 0:
         return "brute", "no feature columns: every distance is 0"
-    if asked == "approximate" and space.metric == "manhattan":
+    if asked == "approximate" and metric == "manhattan":
         return "fast", "the approximate index has no Manhattan distance: exact fast engine"
     if asked != "auto":
         return asked, f"asked for: backend = {asked!r}"
@@ -91,6 +99,13 @@ def choose_backend(space: Space, n_queries: int | None = None,
     if dims <= TREE_DIMS:
         return "sklearn", f"{dims} columns: scikit-learn's trees prune most pairs"
     return "fast", f"{nq} x {nr} pairs in {dims} columns: compiled exact engine"
+
+
+def _fits_float32(matrix: np.ndarray) -> bool:
+    """Whether squared distances of these values stay far inside float32's range."""
+    if matrix.size == 0:
+        return True
+    return bool(max(abs(float(matrix.max())), abs(float(matrix.min()))) <= FLOAT32_SAFE)
 
 
 def _check_k(k: int, req: Request, exclude_self: bool) -> None:

@@ -75,3 +75,20 @@ def test_large_offsets_keep_exact_answers() -> None:
     got = fast_kneighbors(req, 3, Plan(block=50, tile=64, slab=200, threads=1, width=5))
     assert_same(got, reference_knn(matrix, "euclidean", every, every, 3, False), every,
                 "offset")
+
+
+@pytest.mark.parametrize("scale", [1e-30, 1e20])
+@pytest.mark.parametrize("backend", ["fast", "faiss"])
+def test_tiny_and_huge_values_stay_exact(backend: str, scale: float) -> None:
+    # 1e-30 underflows float32 products (the bound's absolute term covers it); 1e20
+    # overflows float32 squares, so the engine says so and answers in float64.
+    from curate.neighbours import choose_backend, kneighbors
+    from curate.space import EngineSettings, Space
+
+    matrix = tied_matrix(seed=26, rows=400) * scale
+    space = Space.from_matrix(matrix, "euclidean", EngineSettings(backend, 1))
+    picked, reason = choose_backend(space)
+    assert (picked == "sklearn") == (scale > 1), reason
+    every = np.arange(400)
+    assert_same(kneighbors(space, 3), reference_knn(matrix, "euclidean", every, every, 3, True),
+                every, f"{backend} scale {scale}")
