@@ -11,14 +11,19 @@ classifier after every added row; here nothing is ever recomputed:
   answered by a walk down a short list;
 * a row none of whose listed neighbours is in the store yet compares itself
   only with the members that joined since it last looked (it remembers its
-  nearest member, distance and how many members it has seen).
+  nearest member, distance and how many members it has seen). FCNN asks
+  that for many rows at once, in one neighbour query against the new
+  members; Hart's passes ask it row by row, in a compiled scan.
 
 Ties in distance go to the lower position, as everywhere in curate. The
 compiled kernels (numba) compute distances like the neighbour engine (a
 sequential sum over the columns, then the root for Euclidean distance), so
 list answers and scan answers agree exactly. Spaces whose distance is not a
 plain Lp distance over the matrix (for example with missing values kept)
-take the same steps in plain Python through ``space.distances``.
+take the same steps in plain Python through ``space.distances``. With the
+opt-in approximate neighbour backend a list can miss a neighbour, and then
+the kept set can miss consistency by the rows concerned; kept_as still
+carries the row's label.
 """
 
 from __future__ import annotations
@@ -67,14 +72,6 @@ def _bring_up_to_date(i, x, nbr, nbr_d, in_store, store_x, ids, size, best, near
             return
     best[i], near[i] = _scan(x[i], store_x, ids, seen[i], size, best[i], near[i], manhattan)
     seen[i] = size
-
-
-@njit(cache=True)
-def _refresh_kernel(rows, x, nbr, nbr_d, in_store, store_x, ids, size, best, near, seen,
-                    manhattan):  # pragma: no cover - compiled
-    for i in rows:
-        _bring_up_to_date(i, x, nbr, nbr_d, in_store, store_x, ids, size, best, near, seen,
-                          manhattan)
 
 
 @njit(cache=True)
@@ -162,14 +159,29 @@ class NearestStore:
                 self.ids, self.size, self.best, self.near, self.seen)
 
     def refresh(self, rows: np.ndarray) -> None:
-        """Bring the nearest member of each of ``rows`` (outside the store) up to date."""
-        rows = np.ascontiguousarray(rows, dtype=np.int64)
-        if self.compiled:
-            _refresh_kernel(rows, *self._state(),  # type: ignore[call-arg]
-                            self.space.metric == "manhattan")
-            return
-        for i in rows:
-            self._bring_plain(int(i))
+        """Bring the nearest member of each of ``rows`` (outside the store) up to date.
+
+        Rows with a listed neighbour in the store take the first one; the others
+        are compared, in one neighbour query, with the members they have not seen.
+        """
+        rows = np.asarray(rows, dtype=np.int64)
+        rows = rows[self.seen[rows] < self.size]
+        hit = self.in_store[self.list_pos[rows]]
+        listed = hit.any(axis=1)
+        if listed.any():
+            done, first = rows[listed], hit[listed].argmax(axis=1)
+            self.best[done] = self.list_d[done, first]
+            self.near[done] = self.list_pos[done, first]
+        rest = rows[~listed]
+        if len(rest):
+            fresh = self.ids[int(self.seen[rest].min()):self.size]
+            dist, pos = kneighbors(self.space, 1, queries=rest, reference=fresh,
+                                   exclude_self=False)
+            dist, pos = dist[:, 0], pos[:, 0]
+            better = (dist < self.best[rest]) | ((dist == self.best[rest]) &
+                                                 (pos < self.near[rest]))
+            self.best[rest[better]], self.near[rest[better]] = dist[better], pos[better]
+        self.seen[rows] = self.size
 
     def hart(self, codes: np.ndarray, order: np.ndarray) -> int:
         """Run Hart's passes in ``order`` until one adds nothing; return the number of passes.
