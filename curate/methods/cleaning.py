@@ -24,7 +24,7 @@ from curate.methods.editing import add_vote_records, misclassified
 from curate.neighbours import kneighbors
 from curate.space import Space
 
-__all__ = ["NCR", "TOMEK_LINKS", "ncr", "tomek_links"]
+__all__ = ["NCR", "TOMEK_LINKS", "interest_class", "ncr", "tomek_links"]
 
 
 def tomek_links(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 0,
@@ -92,8 +92,16 @@ TOMEK_LINKS = MethodInfo(
 )
 
 
-def _interest(names: np.ndarray, codes: np.ndarray, interest: str | int) -> int:
-    """Code of the class of interest: the named one, or the smallest (first label on ties)."""
+def interest_class(names: np.ndarray, codes: np.ndarray, interest: str | int) -> int:
+    """Code of the class of interest: the named one, or the smallest (first label on ties).
+
+    Examples
+    --------
+    >>> interest_class(np.array(["a", "b"]), np.array([0, 0, 1]), "smallest")
+    1
+    >>> interest_class(np.array(["a", "b"]), np.array([0, 0, 1]), "a")
+    0
+    """
     if interest == "smallest":
         return int(np.argmin(np.bincount(codes, minlength=len(names))))
     found = [c for c, name in enumerate(names) if str(name) == str(interest)]
@@ -155,7 +163,7 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     """
     require_rows(space.n, k, "ncr")
     names, codes = encode(labels)
-    target = _interest(names, codes, interest)
+    target = interest_class(names, codes, interest)
     dist, nbr = kneighbors(space, k)
     counts = vote_counts(codes, nbr, len(names))
     wrong = misclassified(counts, codes, "majority")

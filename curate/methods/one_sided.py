@@ -26,7 +26,7 @@ from __future__ import annotations
 import numpy as np
 
 from curate.methods.base import MethodInfo, Param, Removals, Selection, encode
-from curate.methods.cleaning import _interest, tomek_links
+from curate.methods.cleaning import interest_class, tomek_links
 from curate.neighbours import kneighbors
 from curate.space import Space
 
@@ -140,7 +140,7 @@ def one_sided_selection(space: Space, labels: np.ndarray, *, removable: np.ndarr
     removable = np.asarray(removable, dtype=bool)
     if space.n == 0:
         return Removals(0).selection()
-    small = _interest(names, codes, interest)
+    small = interest_class(names, codes, interest)
     return one_sided_with_draws(space, labels, removable=removable, small=small,
                                 draws=draw_rows(codes, small, removable, seed))
 
