@@ -21,7 +21,10 @@ __all__ = ["INDEX_SEED", "Recall", "hnsw_kneighbors", "measure_recall"]
 
 INDEX_SEED = 0  # graph construction seed: fixed so that runs repeat
 CONNECTIONS = 16  # hnswlib's M: links per node
-BUILD_EF = 200  # candidate list while building; larger is slower and more accurate
+# Candidate list while building. Measured at 100,000 rows x 20 columns (one thread, as
+# determinism needs): 200 builds in 25 s, 100 in 12.6 s, both at recall 0.9995 when
+# queried with a list of 64; 64 builds in 6.5 s at recall 0.997.
+BUILD_EF = 100
 
 
 @dataclass(frozen=True)
