@@ -5,26 +5,16 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-import time
 import warnings
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 from curate.errors import CurateError
+from curate.progress import Reporter
 
 __all__ = ["main"]
-
-
-def _progress(quiet: bool) -> Callable[[str], None]:
-    start = time.perf_counter()
-
-    def say(message: str) -> None:
-        if not quiet:
-            print(f"[{time.perf_counter() - start:7.2f} s] {message}", file=sys.stderr, flush=True)
-
-    return say
 
 
 def _load(args: argparse.Namespace) -> Any:
@@ -47,8 +37,9 @@ def cmd_run(args: argparse.Namespace) -> int:
 
     spec = _load(args)
     out = Path(args.out) if args.out else spec.output.folder
-    result = run(spec, out=out, overwrite=args.overwrite or spec.output.overwrite,
-                 progress=_progress(args.quiet))
+    with Reporter(args.quiet) as say:
+        result = run(spec, out=out, overwrite=args.overwrite or spec.output.overwrite,
+                     progress=say)
     if args.json:
         print(json.dumps(result.summary, indent=2, default=str))
     elif not args.quiet:
@@ -109,26 +100,30 @@ def cmd_distances(args: argparse.Namespace) -> int:
 def cmd_methods(args: argparse.Namespace) -> int:
     from curate.methods import METHODS
 
-    table = [{"key": m.key, "name": m.name, "family": m.family, "reference": m.reference,
-              "purpose": m.purpose, "reasons": m.reasons,
-              "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
-                          "doc": p.doc} for p in m.params]} for m in METHODS.values()]
+    table: list[dict[str, Any]] = [
+        {"key": m.key, "name": m.name, "family": m.family, "reference": m.reference,
+         "purpose": m.purpose, "reasons": m.reasons,
+         "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
+                     "doc": p.doc} for p in m.params]} for m in METHODS.values()]
     if args.json:
         print(json.dumps(table, indent=2, default=str))
         return 0
-    for m in table:
-        print(f"{m['key']:<24} {m['name']} ({m['family']}; {m['reference']})")
-        print(f"{'':<24} {m['purpose']}")
-        for p in m["params"]:
-            print(f"{'':<26}{p['name']} = {p['default']!r}: {p['doc']} ({p['allowed']})")
+    for info in METHODS.values():
+        print(f"{info.key:<24} {info.name} ({info.family}; {info.reference})")
+        print(f"{'':<24} {info.purpose}")
+        for p in info.params:
+            print(f"{'':<26}{p.name} = {p.default!r}: {p.doc} ({p.allowed()})")
+        print()
     return 0
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
     from curate.demo import run_demo
 
-    print(run_demo(rows=args.rows, out=Path(args.out), seed=args.seed, quiet=args.quiet,
-                   progress=_progress(args.quiet)))
+    with Reporter(args.quiet) as say:
+        text = run_demo(rows=args.rows, out=Path(args.out), seed=args.seed, quiet=args.quiet,
+                        progress=say)
+    print(text)
     return 0
 
 

@@ -26,7 +26,6 @@ from __future__ import annotations
 import argparse
 import importlib
 import json
-import sys
 import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
@@ -445,23 +444,21 @@ def write_evaluation(folder: str | Path, result: dict[str, Any], prep: Prepared,
 
 
 def _command(args: argparse.Namespace) -> int:
+    from curate.progress import Reporter
     from curate.report import evaluation_text
     from curate.spec import load_spec
 
-    started = time.perf_counter()
-
-    def say(message: str) -> None:
-        if not args.quiet:
-            print(f"[{time.perf_counter() - started:7.2f} s] {message}", file=sys.stderr, flush=True)
-
-    prep = prepare(load_spec(args.pipeline))
-    result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats, ks=parse_ks(args.k),
-                               model=args.model, model_params=parse_model_params(args.model_param),
-                               inject_noise=args.inject_noise, noise_towards=args.noise_towards,
-                               truth=args.truth, seed=args.seed, progress=say)
-    if args.out:
-        say(f"writing {args.out}")
-        write_evaluation(args.out, result, prep, overwrite=args.overwrite)
+    with Reporter(args.quiet) as say:
+        prep = prepare(load_spec(args.pipeline))
+        result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
+                                   ks=parse_ks(args.k), model=args.model,
+                                   model_params=parse_model_params(args.model_param),
+                                   inject_noise=args.inject_noise,
+                                   noise_towards=args.noise_towards, truth=args.truth,
+                                   seed=args.seed, progress=say)
+        if args.out:
+            say(f"writing {args.out}")
+            write_evaluation(args.out, result, prep, overwrite=args.overwrite)
     print(json.dumps(result, indent=2) if args.json else evaluation_text(result))
     return 0
 
