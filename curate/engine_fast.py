@@ -20,7 +20,7 @@ distances tile by tile, with no second step.
 from __future__ import annotations
 
 import contextlib
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import TypeVar
@@ -121,7 +121,7 @@ def _run(n_rows: int, plan: Plan, task: Callable[[int], T]) -> list[T]:
         return list(pool.map(task, starts))
 
 
-def _gemm_tiles(qa: np.ndarray, slab: np.ndarray, tile: int):  # type: ignore[no-untyped-def]
+def _gemm_tiles(qa: np.ndarray, slab: np.ndarray, tile: int) -> Iterator[tuple[int, np.ndarray]]:
     """Yield ``(j0, values)`` for each tile of the slab: one float32 product per tile."""
     buf = np.empty((len(qa), tile), dtype=np.float32)
     for j0 in range(0, len(slab), tile):

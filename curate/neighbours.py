@@ -19,14 +19,14 @@ ranked by exact float64 distance. A metric other than Euclidean or Manhattan
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy.spatial.distance import cdist
 
-from curate.engine_plan import Request, make_request, plan_for
+from curate.engine_plan import Plan, Request, make_request, plan_for
 from curate.errors import UsageError
 
 if TYPE_CHECKING:
@@ -120,7 +120,7 @@ def _chunk_rows(memory_mb: int, n_ref: int) -> int:
     return max(1, min(8192, int(budget // max(1, n_ref * 8))))
 
 
-def _brute_blocks(space: Space, req: Request):  # type: ignore[no-untyped-def]
+def _brute_blocks(space: Space, req: Request) -> Iterator[tuple[int, np.ndarray]]:
     """Yield (start, distances) per block of queries; the query's own row set to inf."""
     step = _chunk_rows(space.engine.memory_mb, len(req.reference))
     for start in range(0, len(req.queries), step):
@@ -159,7 +159,7 @@ def _brute_radius(space: Space, req: Request, radius: float) -> Pairs:
     return dists, idx
 
 
-def _plan(space: Space, req: Request, k: int):  # type: ignore[no-untyped-def]
+def _plan(space: Space, req: Request, k: int) -> Plan:
     return plan_for(space.engine.memory_mb, len(req.queries), len(req.reference), req.dims, k)
 
 
