@@ -307,8 +307,25 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     kept, removed = _split(prep, kept_positions, scores)
     _check_outputs(prep, kept, removed, table)
     summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
+    summary["engine"].update(_engine_facts(prep))
     return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None)
+
+
+def _engine_facts(prep: Prepared) -> dict[str, Any]:
+    """Which neighbour backend the run's space gets and, for the approximate one, its recall.
+
+    Recall is measured on a seeded sample of rows against the exact engine, at the
+    largest k a stage asked for.
+    """
+    from curate.neighbours import engine_report
+
+    ks = [s.params["k"] for s in prep.spec.stages
+          if METHODS[s.method].uses_neighbours and isinstance(s.params.get("k"), int)]
+    k = min(max(ks, default=1), prep.space.n - 1)
+    if not any(METHODS[s.method].uses_neighbours for s in prep.spec.stages) or k < 1:
+        return {}
+    return engine_report(prep.space, k, seed=prep.spec.run.seed, sample=500).as_dict()
 
 
 def _verify_partition(sel: Selection, n: int, stage: StageSettings) -> None:

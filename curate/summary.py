@@ -111,7 +111,7 @@ def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept: pl.DataFra
         "space": {"scale": spec.space.scale, "distance": spec.space.distance,
                   "missing": spec.space.missing, "columns": len(prep.space.columns),
                   "weights": _jsonable(getattr(prep.space, "weights", None) or spec.space.weights)},
-        "engine": {"backend": spec.run.engine.backend, "memory_mb": spec.run.engine.memory_mb,
+        "engine": {"requested": spec.run.engine.backend, "memory_mb": spec.run.engine.memory_mb,
                    "cluster": spec.run.engine.cluster},
         "protected": len(prep.protected),
         "seconds": round(seconds, 4),

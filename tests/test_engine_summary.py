@@ -1,0 +1,48 @@
+"""summary.json says which neighbour backend ran and, for the approximate one, its recall.
+
+Reference: scikit-learn's NearestNeighbors (exact brute force) on the same space; recall is the
+share of each row's exact k nearest that the approximate backend returned.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+import polars as pl
+from sklearn.datasets import load_wine
+from sklearn.neighbors import NearestNeighbors
+
+from curate.api import run
+from curate.neighbours import kneighbors
+from curate.pipeline import prepare
+from curate.spec import spec_from_dict
+
+
+def wine_spec(tmp_path, backend: str):
+    X, y = load_wine(return_X_y=True)
+    pl.DataFrame(X, schema=[f"f{i}" for i in range(X.shape[1])]).with_columns(
+        pl.Series("y", y)).write_csv(tmp_path / "wine.csv")
+    return spec_from_dict({"input": {"path": "wine.csv", "label": "y"},
+                           "stages": [{"method": "enn", "k": 5}],
+                           "run": {"backend": backend}}, base=tmp_path)
+
+
+def test_exact_backend_is_named_with_its_reason(tmp_path):
+    summary = run(wine_spec(tmp_path, "auto")).summary["engine"]
+    assert summary["requested"] == "auto" and summary["exact"] is True
+    assert summary["backend"] in ("brute", "sklearn", "fast", "faiss") and summary["reason"]
+
+
+def test_reported_recall_equals_recall_against_scikit_learn(tmp_path):
+    spec = wine_spec(tmp_path, "approximate")
+    reported = run(spec).summary["engine"]
+    assert reported["backend"] == "approximate" and reported["exact"] is False
+    space = prepare(spec).space
+    _, approx = kneighbors(replace(space, engine=replace(space.engine, backend="approximate")), 5)
+    exact = NearestNeighbors(n_neighbors=6, algorithm="brute").fit(space.matrix)
+    _, truth = exact.kneighbors(space.matrix)
+    truth = truth[:, 1:]  # drop the row itself (no exact copies in wine)
+    recall = np.mean([len(set(a) & set(t)) / 5 for a, t in zip(approx, truth, strict=True)])
+    assert reported["recall_sample"] == space.n
+    assert abs(reported["recall"] - recall) < 1e-12
