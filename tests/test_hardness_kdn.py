@@ -49,3 +49,24 @@ def test_default_k_and_threshold_bounds():
     for bad in (0, 1.5, -0.2):
         with pytest.raises(UsageError, match="threshold"):
             check_params(METHODS["hardness"], {"threshold": bad})
+
+
+def test_scores_reach_the_kept_output_as_a_column(tmp_path):
+    """A hardness stage writes kDN into kept.parquet (scikit-learn's computation as reference),
+    and `[output] scores = false` leaves the input's columns alone."""
+    import polars as pl
+    from sklearn.preprocessing import MinMaxScaler
+
+    from curate.api import run
+
+    X, y = dataset("wine")
+    frame = pl.DataFrame(X, schema=[f"f{i}" for i in range(X.shape[1])]).with_columns(
+        pl.Series("y", y))
+    frame.write_parquet(tmp_path / "wine.parquet")
+    spec = {"input": {"path": "wine.parquet", "label": "y"},
+            "stages": [{"method": "hardness", "k": 5}]}
+    kept = run(spec, base=tmp_path).kept
+    expected = sklearn_kdn(MinMaxScaler().fit_transform(X), y, 5)
+    np.testing.assert_allclose(kept.sort("row_id")["hardness"].to_numpy(), expected)
+    quiet = run(spec | {"output": {"scores": False}}, base=tmp_path).kept
+    assert "hardness" not in quiet.columns
