@@ -59,7 +59,7 @@ def main() -> None:
     parser.add_argument("--memory-mb", type=int, default=1024)
     parser.add_argument("--skip-faiss", action="store_true")
     parser.add_argument("--approximate", action="store_true",
-                        help="also time the HNSW backend and measure its recall")
+                        help="also time the approximate backend and measure its recall")
     args = parser.parse_args()
     X, _ = make_data(args.rows, cols=args.cols, seed=0)
     print(f"{args.rows} rows x {args.cols} columns, k = {args.k}; {load_note()}")

@@ -11,7 +11,7 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from curate.errors import CurateError
+from curate.errors import CurateError, UsageError
 from curate.progress import Reporter
 
 __all__ = ["main"]
@@ -26,6 +26,11 @@ def _load(args: argparse.Namespace) -> Any:
         engine = replace(engine, memory_mb=args.memory_mb)
     if getattr(args, "backend", None):
         engine = replace(engine, backend=args.backend)
+    if getattr(args, "recall_target", None) is not None:
+        if not 0.0 < args.recall_target <= 1.0:
+            raise UsageError(f"--recall-target {args.recall_target} is not a share",
+                             hint="give a number above 0 and at most 1, for example 0.99")
+        engine = replace(engine, recall_target=args.recall_target)
     if getattr(args, "cluster", None):
         engine = replace(engine, cluster=args.cluster)
         spec = replace(spec, cluster=replace(spec.cluster, address=args.cluster))
@@ -140,6 +145,8 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
     p.add_argument("--backend", help="neighbour engine: auto, brute, sklearn, faiss, fast, "
                    "approximate")
+    p.add_argument("--recall-target", type=float, metavar="SHARE",
+                   help="recall the approximate engine probes for (default 0.99)")
     p.add_argument("--cluster", metavar="ADDRESS", help="run on a Dask cluster: a scheduler "
                    "address, or local:N for N worker processes on this machine")
     p.set_defaults(func=cmd_run)

@@ -1,82 +1,253 @@
-"""Approximate neighbours from an HNSW graph (hnswlib), opt-in, seeded, with measured recall.
+"""Approximate neighbours from an inverted-file index, opt-in, seeded, with measured recall.
 
-The graph is built on one thread with a fixed seed, so the same rows give the
-same graph and the same answers. Returned distances are recomputed exactly
-and each row's neighbours are ordered by (distance, position); only the
-choice of neighbours is approximate. :func:`measure_recall` states how
-approximate: the share of the exact k nearest (by the exact engine) that the
-graph returned, averaged over a seeded sample of queries.
+The reference rows are split into ``lists`` cells around seeded centres
+(rows drawn at random, moved by a few k-means steps on a sample); a query
+compares itself only with the rows of the ``probes`` cells whose centres are
+nearest to it. That is the inverted-file scheme (Sivic and Zisserman 2003;
+Jegou, Douze and Schmid 2011, with exact rather than compressed rows).
+
+How many cells to probe is not guessed: a seeded sample of the queries is
+answered exactly (the fast exact engine) and by the index, and the number of
+probes doubles until the sample's recall (the share of each sampled query's
+exact ``k`` nearest that the index returns) reaches the target, 0.99 unless
+``[run] recall_target`` says otherwise. Every query is then answered with
+that many probes; the sampled queries get exactly the answers that were
+measured, so the recall written to summary.json is the recall of the answers
+the stage used, on that sample.
+
+Everything is deterministic: the centres come from a fixed seed, the cells
+are computed in float64 with one BLAS thread per block, and each query's scan
+is independent of the others, so the number of threads does not change any
+answer. Returned distances are exact (:mod:`curate.engine_exact`) and each
+row's neighbours are ordered by (distance, position); only the choice of
+neighbours is approximate.
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from typing import TypeVar
 
+import numba
 import numpy as np
+from threadpoolctl import threadpool_limits
 
 from curate.engine_exact import exact_pairs
-from curate.engine_plan import Request
+from curate.engine_plan import Plan, Request
 
-__all__ = ["INDEX_SEED", "Recall", "hnsw_kneighbors", "measure_recall"]
+__all__ = ["INDEX_SEED", "RECALL_TARGET", "Recall", "approximate_kneighbors", "measure_recall"]
 
-INDEX_SEED = 0  # graph construction seed: fixed so that runs repeat
-CONNECTIONS = 16  # hnswlib's M: links per node
-# Candidate list while building. Measured at 100,000 rows x 20 columns (one thread, as
-# determinism needs): 200 builds in 25 s, 100 in 12.6 s, both at recall 0.9995 when
-# queried with a list of 64; 64 builds in 6.5 s at recall 0.997.
-BUILD_EF = 100
+T = TypeVar("T")
+INDEX_SEED = 0  # centres and recall sample: fixed so that runs repeat
+RECALL_TARGET = 0.99
+RECALL_SAMPLE = 500
+LISTS_PER_ROOT = 4  # cells = 4 * sqrt(reference rows): about 250 rows a cell at a million
+TRAIN_PER_LIST = 32  # k-means sample: rows per cell
+TRAIN_STEPS = 3
+FIRST_PROBES = 8
+SPARE = 2  # candidates beyond k, ranked exactly: float32 values can swap close rows
 
 
 @dataclass(frozen=True)
 class Recall:
-    """Measured recall of the approximate backend on a seeded sample of queries."""
+    """Measured recall on a seeded sample of queries, and the probes that gave it."""
 
     recall: float
     sampled: np.ndarray
     k: int
+    probes: int = 0
+    lists: int = 0
 
 
-def _index(req: Request) -> object:
-    import hnswlib
+@dataclass(frozen=True)
+class _Index:
+    """Reference rows packed cell by cell, with the cells' centres.
 
-    index = hnswlib.Index(space="l2", dim=req.dims)
-    index.init_index(max_elements=max(1, len(req.reference)), ef_construction=BUILD_EF,
-                     M=CONNECTIONS, random_seed=INDEX_SEED)
-    index.add_items(req.matrix[req.reference].astype(np.float32),
-                    np.arange(len(req.reference)), num_threads=1)
-    return index
-
-
-def hnsw_kneighbors(req: Request, k: int, chunk: int = 65536) -> tuple[np.ndarray, np.ndarray]:
-    """Approximate k nearest reference rows (Euclidean), exact distances, position-ordered ties.
-
-    Examples
-    --------
-    >>> from curate.engine_plan import make_request
-    >>> req = make_request(np.array([[0.0], [1.0], [3.0], [4.0]]), "euclidean", None, None, True)
-    >>> hnsw_kneighbors(req, 2)[1].tolist()
-    [[1, 2], [0, 2], [3, 1], [2, 1]]
+    ``packed`` holds each row centred, in float32, as ``[b, |b|^2]``: a query
+    written as ``[-2a, 1]`` gets ``|b|^2 - 2 a.b`` from one product, which ranks
+    rows as the squared distance does (``|a|^2`` is the same along a query).
     """
-    index = _index(req)
-    ask = min(len(req.reference), k + 1)  # one more: the query itself may come back
-    index.set_ef(max(64, 4 * ask))  # type: ignore[attr-defined]
+
+    centres: np.ndarray  # (lists, dims), float64
+    offsets: np.ndarray  # cell c holds packed rows offsets[c]:offsets[c + 1]
+    packed: np.ndarray  # (n_ref, dims + 1), float32
+    members: np.ndarray  # reference index of each packed row
+    mean: np.ndarray
+
+    @property
+    def lists(self) -> int:
+        """Number of cells."""
+        return int(len(self.centres))
+
+
+def _pool(plan: Plan, starts: range | list[int], task: Callable[[int], T]) -> list[T]:
+    if plan.threads == 1 or len(starts) <= 1:
+        return [task(s) for s in starts]
+    with ThreadPoolExecutor(plan.threads) as pool:
+        return list(pool.map(task, starts))
+
+
+def _nearest_centres(rows: np.ndarray, centres: np.ndarray, count: int, plan: Plan
+                     ) -> np.ndarray:
+    """Indices of the ``count`` nearest centres of each row, nearest first (float64)."""
+    c2 = np.einsum("ij,ij->i", centres, centres)
+    # three float64 temporaries of one block of rows x centres per thread
+    step = max(1, min(len(rows),
+                      plan.memory_mb * 2**20 // (24 * max(1, len(centres)) * plan.threads)))
+    out = np.empty((len(rows), count), dtype=np.int64)
+
+    def task(s: int) -> None:
+        block = rows[s:s + step]
+        # |c|^2 - 2 r.c ranks centres as the squared distance does (|r|^2 is the same)
+        d = c2 - 2.0 * (block @ centres.T)
+        if count == 1:
+            out[s:s + step, 0] = d.argmin(axis=1)
+            return
+        part = np.argpartition(d, count - 1, axis=1)[:, :count] if count < d.shape[1] else \
+            np.broadcast_to(np.arange(d.shape[1]), d.shape).copy()
+        near = np.take_along_axis(d, part, axis=1)
+        order = np.lexsort((part, near), axis=1)
+        out[s:s + step] = np.take_along_axis(part, order, axis=1)
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        _pool(plan, range(0, len(rows), step), task)
+    return out
+
+
+def _build(req: Request, plan: Plan) -> _Index:
+    ref = req.matrix[req.reference]
+    n = len(ref)
+    lists = int(max(1, min(n, round(LISTS_PER_ROOT * np.sqrt(n)))))
+    rng = np.random.default_rng(INDEX_SEED)
+    centres = ref[np.sort(rng.choice(n, size=lists, replace=False))].copy()
+    train = ref[np.sort(rng.choice(n, size=min(n, TRAIN_PER_LIST * lists), replace=False))]
+    for _ in range(TRAIN_STEPS):  # Lloyd's steps; a centre with no rows stays where it is
+        cell = _nearest_centres(train, centres, 1, plan)[:, 0]
+        counts = np.bincount(cell, minlength=lists)
+        filled = counts > 0
+        for c in range(ref.shape[1]):
+            centres[filled, c] = np.bincount(cell, weights=train[:, c],
+                                             minlength=lists)[filled] / counts[filled]
+    cell = _nearest_centres(ref, centres, 1, plan)[:, 0]
+    members = np.argsort(cell, kind="stable")  # cell by cell, positions ascending inside
+    offsets = np.concatenate([[0], np.cumsum(np.bincount(cell, minlength=lists))])
+    mean = ref.mean(axis=0) if n else np.zeros(ref.shape[1])
+    rows = (ref[members] - mean).astype(np.float32)
+    packed = np.empty((n, ref.shape[1] + 1), dtype=np.float32)
+    packed[:, :-1] = rows
+    wide = rows.astype(np.float64)
+    packed[:, -1] = np.einsum("ij,ij->i", wide, wide)
+    return _Index(centres, offsets.astype(np.int64), packed, members.astype(np.int64), mean)
+
+
+@numba.njit(cache=True, nogil=True)
+def _update(values, who, members, own, best_v, best_i):  # pragma: no cover - compiled
+    """Fold one cell's values into the candidate lists of the queries ``who``.
+
+    ``values[r, j]`` ranks member ``j`` for query ``who[r]``; lists are kept
+    ordered by (value, reference index).
+    """
+    width = best_v.shape[1]
+    for r in range(values.shape[0]):
+        qi = who[r]
+        for j in range(values.shape[1]):
+            v = values[r, j]
+            last = best_v[qi, width - 1]
+            if v > last:
+                continue
+            idx = members[j]
+            if idx == own[qi] or (v == last and idx >= best_i[qi, width - 1]):
+                continue
+            at = width - 1
+            while at > 0 and (best_v[qi, at - 1] > v or
+                              (best_v[qi, at - 1] == v and best_i[qi, at - 1] > idx)):
+                best_v[qi, at] = best_v[qi, at - 1]
+                best_i[qi, at] = best_i[qi, at - 1]
+                at -= 1
+            best_v[qi, at] = v
+            best_i[qi, at] = idx
+
+
+def _split(work: np.ndarray, parts: int) -> list[int]:
+    """Cell boundaries that cut the cells into ``parts`` runs of about equal work."""
+    total = np.cumsum(work)
+    if parts <= 1 or len(work) == 0 or total[-1] == 0:
+        return [0, len(work)]
+    cuts = np.searchsorted(total, total[-1] * np.arange(1, parts) / parts)
+    return sorted({0, *[int(c) for c in cuts], len(work)})
+
+
+def _candidates(req: Request, index: _Index, rows: np.ndarray, probes: int, width: int,
+                plan: Plan) -> np.ndarray:
+    """Reference indices of each query's ``width`` best rows in its probed cells (-1: none).
+
+    Queries are grouped by cell, so each cell's rows meet all their queries in one
+    matrix product. Each thread takes a run of cells with its own candidate lists;
+    the lists are merged by (value, index), so the answer does not depend on the
+    threads.
+    """
+    q = (req.matrix[req.queries[rows]] - index.mean).astype(np.float32)
+    qa = np.empty((len(rows), req.dims + 1), dtype=np.float32)
+    qa[:, :-1] = -2 * q
+    qa[:, -1] = 1
+    near = _nearest_centres(req.matrix[req.queries[rows]], index.centres, probes, plan)
+    flat = near.reshape(-1)
+    by_cell = np.argsort(flat, kind="stable")
+    who_all = (by_cell // probes).astype(np.int64)
+    starts = np.concatenate([[0], np.cumsum(np.bincount(flat, minlength=index.lists))])
+    sizes = np.diff(index.offsets)
+    bounds = _split(np.diff(starts) * sizes, plan.threads)
+    own = req.self_index[rows]
+
+    def task(part: int) -> tuple[np.ndarray, np.ndarray]:
+        best_v = np.full((len(rows), width), np.inf, dtype=np.float32)
+        best_i = np.full((len(rows), width), -1, dtype=np.int64)
+        for c in range(bounds[part], bounds[part + 1]):
+            a, b = index.offsets[c], index.offsets[c + 1]
+            if a == b or starts[c] == starts[c + 1]:
+                continue
+            who = who_all[starts[c]:starts[c + 1]]
+            values = qa[who] @ index.packed[a:b].T
+            _update(values, who, index.members[a:b], own, best_v, best_i)
+        return best_v, best_i
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        found = _pool(plan, list(range(len(bounds) - 1)), task)
+    if len(found) == 1:
+        return found[0][1]
+    v = np.concatenate([f[0] for f in found], axis=1)
+    i = np.concatenate([f[1] for f in found], axis=1)
+    order = np.lexsort((np.where(i < 0, np.iinfo(np.int64).max, i), v), axis=1)[:, :width]
+    return np.take_along_axis(i, order, axis=1)
+
+
+def _search(req: Request, index: _Index, k: int, probes: int, plan: Plan
+            ) -> tuple[np.ndarray, np.ndarray]:
+    """k nearest among the probed cells: exact distances, ordered by (distance, position)."""
+    probes = min(probes, index.lists)
+    width = k + SPARE
     out_d = np.empty((len(req.queries), k))
     out_i = np.empty((len(req.queries), k), dtype=np.int64)
-    for start in range(0, len(req.queries), chunk):
-        rows = np.arange(start, min(len(req.queries), start + chunk))
-        labels, _ = index.knn_query(  # type: ignore[attr-defined]
-            req.matrix[req.queries[rows]].astype(np.float32), k=ask)
-        labels = labels.astype(np.int64)
-        own = req.self_index[rows][:, None]
-        # the query itself moves last (stable, so the rest keep the graph's order), then
-        # the last one goes: the query itself, or else the farthest surplus
-        last = np.argsort((labels == own) & (own >= 0), axis=1, kind="stable")
-        labels = np.take_along_axis(labels, last, axis=1)[:, :k]
-        dist = exact_pairs(req.matrix, np.repeat(req.queries[rows], k),
-                           req.reference[labels.reshape(-1)], req.metric).reshape(-1, k)
-        order = np.lexsort((labels, dist), axis=1)
-        out_d[rows] = np.take_along_axis(dist, order, axis=1)
-        out_i[rows] = req.reference[np.take_along_axis(labels, order, axis=1)]
+    # per query in flight: its probes (int64, twice: cells and their order) and lists
+    step = max(1024, plan.memory_mb * 2**20 // 4 // (24 * probes + 16 * width + 100))
+    for s in range(0, len(req.queries), step):
+        rows = np.arange(s, min(len(req.queries), s + step))
+        found = _candidates(req, index, rows, probes, width, plan)
+        valid = found >= 0
+        short = np.flatnonzero(valid.sum(axis=1) < k)
+        if len(short) and probes < index.lists:  # too few rows in the probed cells
+            found[short] = _candidates(req, index, rows[short], index.lists, width, plan)
+            valid = found >= 0
+        cols = np.where(valid, found, 0)
+        dist = exact_pairs(req.matrix, np.repeat(req.queries[rows], width),
+                           req.reference[cols.reshape(-1)], req.metric).reshape(-1, width)
+        dist[~valid] = np.inf
+        rank = np.lexsort((np.where(valid, found, np.iinfo(np.int64).max), dist),
+                          axis=1)[:, :k]
+        out_d[rows] = np.take_along_axis(dist, rank, axis=1)
+        out_i[rows] = req.reference[np.take_along_axis(cols, rank, axis=1)]
     return out_d, out_i
 
 
@@ -92,3 +263,43 @@ def measure_recall(approx_pos: np.ndarray, exact_pos: np.ndarray, sampled: np.nd
     """
     hits = sum(len(np.intersect1d(a, e)) for a, e in zip(approx_pos, exact_pos, strict=True))
     return Recall(float(hits / max(1, len(sampled) * k)), sampled, k)
+
+
+def sample_queries(n_queries: int, sample: int, seed: int) -> np.ndarray:
+    """Indices of the seeded sample of queries whose recall is measured (ascending)."""
+    rng = np.random.default_rng(seed)
+    return np.sort(rng.choice(n_queries, size=min(sample, n_queries), replace=False))
+
+
+def approximate_kneighbors(req: Request, k: int, plan: Plan, target: float = RECALL_TARGET,
+                           sample: int = RECALL_SAMPLE, seed: int = INDEX_SEED,
+                           sample_only: bool = False) -> tuple[np.ndarray, np.ndarray, Recall]:
+    """Approximate k nearest reference rows (Euclidean) and the recall measured on a sample.
+
+    ``sample_only`` answers the sampled queries only (their rows in the order of
+    ``Recall.sampled``): what a full query would measure, without running it.
+
+    Examples
+    --------
+    >>> from curate.engine_plan import make_request, plan_for
+    >>> req = make_request(np.array([[0.0], [1.0], [3.0], [4.0]]), "euclidean", None, None, True)
+    >>> d, i, r = approximate_kneighbors(req, 2, plan_for(64, 4, 4, 1, 2))
+    >>> i.tolist(), r.recall
+    ([[1, 2], [0, 2], [3, 1], [2, 1]], 1.0)
+    """
+    from curate.engine_fast import fast_kneighbors
+
+    index = _build(req, plan)
+    pick = sample_queries(len(req.queries), sample, seed)
+    sub = req.rows(pick)
+    exact = fast_kneighbors(sub, k, plan)[1]
+    probes = min(FIRST_PROBES, index.lists)
+    while True:
+        dist, pos = _search(sub, index, k, probes, plan)
+        measured = measure_recall(pos, exact, sub.queries, k)
+        if measured.recall >= target or probes >= index.lists:
+            break
+        probes = min(index.lists, 2 * probes)
+    if not sample_only:
+        dist, pos = _search(req, index, k, probes, plan)
+    return dist, pos, Recall(measured.recall, sub.queries, k, probes, index.lists)

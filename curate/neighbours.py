@@ -8,8 +8,9 @@ results never depend on the backend or the chunk size.
 Backends (``space.engine.backend``): ``brute`` (direct distances, the slow
 obvious reference), ``sklearn`` (scikit-learn's NearestNeighbors), ``faiss``
 (a flat float32 index), ``fast`` (our compiled engine), ``approximate``
-(an HNSW graph, opt-in, see :func:`engine_report` for its measured recall)
-and ``auto``, which picks one by size, dimension and metric and says why
+(an inverted-file index, opt-in; every query measures its own recall on a
+sample and :func:`recording` collects it) and ``auto``, which picks one by
+size, dimension and metric and says why
 (:func:`choose_backend`). All exact backends return identical neighbours and
 bitwise identical distances: candidates found in lower precision are always
 ranked by exact float64 distance. A metric other than Euclidean or Manhattan
@@ -20,7 +21,9 @@ ranked by exact float64 distance. A metric other than Euclidean or Manhattan
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass, field
+from contextlib import contextmanager
+from contextvars import ContextVar
+from dataclasses import asdict, dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -32,8 +35,9 @@ from curate.errors import UsageError
 if TYPE_CHECKING:
     from curate.space import Space
 
-__all__ = ["BACKENDS", "EngineReport", "NeighbourCountError", "choose_backend", "engine_report",
-           "kneighbors", "pairwise", "radius_neighbors"]
+__all__ = ["BACKENDS", "EngineCall", "EngineReport", "NeighbourCountError", "choose_backend",
+           "engine_report", "kneighbors", "pairwise", "radius_neighbors", "recording",
+           "summarise_calls"]
 
 BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
 LP_METRICS = ("euclidean", "manhattan")
@@ -163,13 +167,76 @@ def _plan(space: Space, req: Request, k: int) -> Plan:
     return plan_for(space.engine.memory_mb, len(req.queries), len(req.reference), req.dims, k)
 
 
+@dataclass(frozen=True)
+class EngineCall:
+    """One k-nearest query as the engine ran it: backend, why, sizes and, when approximate,
+    the recall measured on its own seeded sample of queries."""
+
+    backend: str
+    reason: str
+    k: int
+    queries: int
+    reference: int
+    recall: float = 1.0
+    sample: int = 0
+    probes: int = 0
+    lists: int = 0
+
+
+_CALLS: ContextVar[list[EngineCall] | None] = ContextVar("curate_engine_calls", default=None)
+
+
+@contextmanager
+def recording() -> Iterator[list[EngineCall]]:
+    """Collect an :class:`EngineCall` for every k-nearest query made inside the block.
+
+    Examples
+    --------
+    >>> from curate.space import Space
+    >>> with recording() as calls:
+    ...     _ = kneighbors(Space.from_matrix([[0.0], [1.0], [3.0]]), 1)
+    >>> [(c.backend, c.k, c.queries) for c in calls]
+    [('brute', 1, 3)]
+    """
+    calls: list[EngineCall] = []
+    token = _CALLS.set(calls)
+    try:
+        yield calls
+    finally:
+        _CALLS.reset(token)
+
+
+def _note(call: EngineCall) -> None:
+    calls = _CALLS.get()
+    if calls is not None:
+        calls.append(call)
+
+
+def summarise_calls(calls: list[EngineCall]) -> dict[str, object]:
+    """What a stage's neighbour queries used, for summary.json: backends, and for the
+    approximate ones their lowest measured recall and the queries it was measured on.
+
+    Examples
+    --------
+    >>> summarise_calls([EngineCall("fast", "why", 3, 10, 10)])
+    {'backends': ['fast'], 'queries': 1, 'exact': True}
+    """
+    out: dict[str, object] = {"backends": sorted({c.backend for c in calls}),
+                              "queries": len(calls)}
+    approx = [c for c in calls if c.backend == "approximate"]
+    out["exact"] = not approx
+    if approx:
+        worst = min(approx, key=lambda c: c.recall)
+        out.update({"recall": worst.recall, "recall_sample": sum(c.sample for c in approx),
+                    "approximate_queries": len(approx),
+                    "lowest": {key: value for key, value in asdict(worst).items()
+                               if key not in ("backend", "reason")}})
+    return out
+
+
 def _run_knn(backend: str, space: Space, req: Request, k: int) -> tuple[np.ndarray, np.ndarray]:
     if backend == "brute":
         return _brute_knn(space, req, k)
-    if backend == "approximate":
-        from curate.engine_approx import hnsw_kneighbors
-
-        return hnsw_kneighbors(req, k)
     if backend == "fast":
         from curate.engine_fast import fast_kneighbors
 
@@ -221,7 +288,17 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
 
         return kneighbors_on_cluster(space, k, queries=req.queries, reference=req.reference,
                                      exclude_self=exclude_self)
-    backend, _ = choose_backend(space, len(req.queries), len(req.reference))
+    backend, reason = choose_backend(space, len(req.queries), len(req.reference))
+    sizes = (k, len(req.queries), len(req.reference))
+    if backend == "approximate":
+        from curate.engine_approx import approximate_kneighbors
+
+        d, i, measured = approximate_kneighbors(req, k, _plan(space, req, k),
+                                                space.engine.recall_target)
+        _note(EngineCall(backend, reason, *sizes, measured.recall, len(measured.sampled),
+                         measured.probes, measured.lists))
+        return d, i
+    _note(EngineCall(backend, reason, *sizes))
     return _run_knn(backend, space, req, k)
 
 
@@ -321,16 +398,11 @@ def engine_report(space: Space, k: int, *, queries: np.ndarray | None = None,
     backend, reason = choose_backend(space, len(req.queries), len(req.reference))
     if backend != "approximate":
         return EngineReport(backend, reason, True, 1.0)
-    from curate.engine_approx import hnsw_kneighbors, measure_recall
-    from curate.engine_fast import fast_kneighbors
+    from curate.engine_approx import approximate_kneighbors
 
-    rng = np.random.default_rng(seed)
-    pick = np.sort(rng.choice(len(req.queries), size=min(sample, len(req.queries)),
-                              replace=False))
-    sub = req.rows(pick)
-    # The graph depends only on the reference rows and its fixed seed, so these
-    # answers are the ones the full query gives for the sampled rows.
-    _, approx = hnsw_kneighbors(sub, k)
-    _, exact = fast_kneighbors(sub, k, _plan(space, sub, k))
-    measured = measure_recall(approx, exact, sub.queries, k)
-    return EngineReport(backend, reason, False, measured.recall, sub.queries)
+    # The index and the probes chosen depend only on the reference rows, the sampled
+    # queries and the target, so this is the recall the full query measures for itself.
+    _, _, measured = approximate_kneighbors(req, k, _plan(space, req, k),
+                                            space.engine.recall_target, sample, seed,
+                                            sample_only=True)
+    return EngineReport(backend, reason, False, measured.recall, measured.sampled)

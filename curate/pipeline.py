@@ -15,6 +15,7 @@ from curate.audit import AuditBuilder
 from curate.errors import InputError, SafetyLimitError, UsageError, first_ids
 from curate.methods import METHODS
 from curate.methods.base import Selection
+from curate.neighbours import choose_backend, recording, summarise_calls
 from curate.space import Space, build_space
 from curate.spec import Spec, StageSettings
 from curate.table import read_input, row_ids
@@ -289,7 +290,10 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         sub = prep.space.subset(active)
         stage_labels = labels[active]
         protected = np.flatnonzero(np.isin(active, prep.protected))
-        sel = run_stage(stage, sub, stage_labels, protected, prep.spec.run.seed)
+        with recording() as calls:
+            sel = run_stage(stage, sub, stage_labels, protected, prep.spec.run.seed)
+        if calls:
+            sel.info["engine"] = summarise_calls(calls)
         _verify_partition(sel, len(active), stage)
         check_safety(stage, stage_labels, sel.removed, [ids_valid[a] for a in active])
         removed_input = _record(prep, audit, stage, active, sel)
@@ -307,25 +311,33 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     kept, removed = _split(prep, kept_positions, scores)
     _check_outputs(prep, kept, removed, table)
     summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
-    summary["engine"].update(_engine_facts(prep))
+    summary["engine"].update(_engine_facts(prep, outcomes))
     return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None)
 
 
-def _engine_facts(prep: Prepared) -> dict[str, Any]:
+def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any]:
     """Which neighbour backend the run's space gets and, for the approximate one, its recall.
 
-    Recall is measured on a seeded sample of rows against the exact engine, at the
-    largest k a stage asked for.
+    The recall is the lowest that any stage's approximate query measured for
+    itself (on a seeded sample of its queries against the exact engine), so it
+    describes the neighbours the stages actually used; nothing is searched again.
     """
-    from curate.neighbours import engine_report
-
-    ks = [s.params["k"] for s in prep.spec.stages
-          if METHODS[s.method].uses_neighbours and isinstance(s.params.get("k"), int)]
-    k = min(max(ks, default=1), prep.space.n - 1)
-    if not any(METHODS[s.method].uses_neighbours for s in prep.spec.stages) or k < 1:
+    if not any(METHODS[s.method].uses_neighbours for s in prep.spec.stages):
         return {}
-    return engine_report(prep.space, k, seed=prep.spec.run.seed, sample=500).as_dict()
+    backend, reason = choose_backend(prep.space)
+    engines = [o.selection.info["engine"] for o in outcomes if "engine" in o.selection.info]
+    approx = [e for e in engines if not e["exact"]]
+    if approx:
+        worst = min(approx, key=lambda e: e["recall"])
+        return {"backend": "approximate", "reason": reason, "exact": False,
+                "recall": worst["recall"], "recall_sample": sum(e["recall_sample"] for e in approx),
+                "recall_target": prep.space.engine.recall_target}
+    if backend == "approximate":
+        backend, reason = "fast", ("approximate asked for, but no stage made a k-nearest query "
+                                   "it answers: every neighbour was found exactly")
+    return {"backend": backend, "reason": reason, "exact": True, "recall": 1.0,
+            "recall_sample": 0}
 
 
 def _verify_partition(sel: Selection, n: int, stage: StageSettings) -> None:

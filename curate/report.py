@@ -101,9 +101,28 @@ def _headline(s: Mapping[str, Any]) -> str:
         [cell("pipeline sha256"), cell(s["pipeline_sha256"] or "(given as a dictionary)")],
         [cell("distance"), cell(f"{s['space']['distance']}, scale {s['space']['scale']}, "
                                 f"missing values: {s['space']['missing']}")],
+        [cell("neighbour engine"), cell(_engine_text(s.get("engine", {})))],
         [cell("versions"), cell(", ".join(f"{k} {v}" for k, v in s["versions"].items()))],
     ])
     return f"{main}\n<h3>Removed, by reason</h3>{reasons}\n<h3>Provenance</h3>{facts}"
+
+
+def _engine_text(engine: Mapping[str, Any]) -> str:
+    """The neighbour engine in words: backend and reason, and how exact it was.
+
+    Examples
+    --------
+    >>> _engine_text({"backend": "approximate", "reason": "asked for", "exact": False,
+    ...               "recall": 0.9912, "recall_sample": 500, "recall_target": 0.99})
+    'approximate (asked for); recall 0.991 measured on 500 sampled queries (target 0.99)'
+    """
+    if "backend" not in engine:
+        return "no stage searched for neighbours"
+    text = f"{engine['backend']} ({engine['reason']})"
+    if engine.get("exact", True):
+        return text + "; exact"
+    return (text + f"; recall {engine['recall']:.3f} measured on {engine['recall_sample']:,} "
+            f"sampled queries (target {engine.get('recall_target', 0.99)})")
 
 
 def _flow(s: Mapping[str, Any]) -> str:
@@ -124,6 +143,12 @@ def _flow(s: Mapping[str, Any]) -> str:
         f'<p class="note">Stage {html.escape(str(st["name"]))}: '
         f'{html.escape(str(st["info"].get("note", "partitioned result")))}</p>'
         for st in s["stages"] if st.get("info", {}).get("approximate"))
+    approximate += "".join(
+        f'<p class="note">Stage {html.escape(str(st["name"]))}: neighbours from the approximate '
+        f'engine, recall {st["info"]["engine"]["recall"]:.3f} on '
+        f'{st["info"]["engine"]["recall_sample"]:,} sampled queries; an exact run can remove '
+        "different rows.</p>"
+        for st in s["stages"] if not st.get("info", {}).get("engine", {}).get("exact", True))
     return quarantine + table(head, rows) + approximate + picture
 
 

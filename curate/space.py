@@ -79,11 +79,14 @@ class EngineSettings:
     ``cluster`` is the address of a Dask scheduler (or ``"local:N"``); when set,
     neighbour queries are spread over its workers while a session for that
     address is open (see :mod:`curate.distributed`), with the same results.
+    ``recall_target`` is the recall the approximate backend probes for, measured
+    on a sample of each query (see :mod:`curate.engine_approx`).
     """
 
     backend: str = "auto"
     memory_mb: int = 1024
     cluster: str | None = None
+    recall_target: float = 0.99
 
 
 @dataclass(frozen=True)

@@ -298,13 +298,17 @@ def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
 
 
 def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:
-    _known(where, "run", data, ("seed", "backend", "memory_mb"))
+    _known(where, "run", data, ("seed", "backend", "memory_mb", "recall_target"))
     memory = _get(where, "run", data, "memory_mb", int, 1024)
     if memory < 16:
         _fail(where, "run", "memory_mb", f"got {memory}", "give at least 16 (megabytes)")
+    target = _get(where, "run", data, "recall_target", float, 0.99)
+    if not 0.0 < target <= 1.0:
+        _fail(where, "run", "recall_target", f"got {target!r}",
+              "give a share above 0.0 and at most 1.0 (0.99 unless you need speed more)")
     return RunSettings(seed=_get(where, "run", data, "seed", int, 0),
                        engine=EngineSettings(_get(where, "run", data, "backend", str, "auto", BACKENDS),
-                                             memory, cluster))
+                                             memory, cluster, target))
 
 
 def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:

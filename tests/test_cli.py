@@ -132,3 +132,16 @@ def test_demo_at_small_size_stops_before_stripping_a_rare_class(tmp_path, capsys
     assert main(["demo", "--rows", "2000", "--out", str(tmp_path / "demo"), "--quiet"]) == 4
     assert "max_removed_share" in capsys.readouterr().err
     assert not (tmp_path / "demo" / "run").exists()
+
+
+def test_recall_target_on_the_command_line(make_pipeline, two_blobs, capsys):
+    path = make_pipeline(two_blobs, STAGES)
+    out = path.parent / "approx"
+    assert main(["run", str(path), "--quiet", "--out", str(out), "--backend", "approximate",
+                 "--recall-target", "0.9"]) == 0
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["engine"]["recall_target"] == 0.9 and summary["engine"]["recall"] >= 0.9
+    assert main(["run", str(path), "--quiet", "--out", str(path.parent / "no"),
+                 "--recall-target", "1.5"]) == 2
+    assert "--recall-target" in capsys.readouterr().err
+    assert not (path.parent / "no").exists()

@@ -46,3 +46,28 @@ def test_reported_recall_equals_recall_against_scikit_learn(tmp_path):
     recall = np.mean([len(set(a) & set(t)) / 5 for a, t in zip(approx, truth, strict=True)])
     assert reported["recall_sample"] == space.n
     assert abs(reported["recall"] - recall) < 1e-12
+
+
+def test_each_stage_records_the_engine_it_used_and_the_run_takes_the_lowest_recall(tmp_path):
+    spec = wine_spec(tmp_path, "approximate")
+    spec = replace(spec, stages=(*spec.stages, replace(spec.stages[0], name="again", params={
+        **spec.stages[0].params, "k": 3})))
+    result = run(spec)
+    summary = result.summary
+    recalls = [st["info"]["engine"]["recall"] for st in summary["stages"]]
+    assert all(st["info"]["engine"]["backends"] == ["approximate"] for st in summary["stages"])
+    assert summary["engine"]["recall"] == min(recalls)
+    assert summary["engine"]["recall_target"] == 0.99
+    assert all(r >= 0.99 for r in recalls)  # wine is small: the sample is every row
+    from curate.report import render_run
+
+    page = render_run(result)
+    assert page.count("neighbours from the approximate engine") == 2
+    assert f"recall {summary['engine']['recall']:.3f} measured on" in page
+
+
+def test_exact_stages_record_their_backend(tmp_path):
+    summary = run(wine_spec(tmp_path, "fast")).summary
+    engine = summary["stages"][0]["info"]["engine"]
+    assert engine["backends"] == ["fast"] and engine["exact"] is True
+    assert summary["engine"]["backend"] == "fast" and summary["engine"]["recall"] == 1.0

@@ -70,6 +70,7 @@ def test_defaults_are_filled():
     assert spec.stages[0].params == {"k": 3, "vote": "majority"}
     assert spec.stages[0].max_removed_share == 0.5 and spec.stages[0].classes == "all"
     assert spec.input.on_invalid == "stop" and spec.output.overwrite is False
+    assert spec.run.engine.recall_target == 0.99
 
 
 @pytest.mark.parametrize(("text", "words"), [
@@ -86,6 +87,8 @@ def test_defaults_are_filled():
     ("[input]\npath = 'x.csv'\nlabel = 'y'\n[[stages]]\nmethod = 'enn'\nclasses = 'some'\n",
      ("line 6", "all-but-smallest")),
     ("[input\npath = 'x.csv'\n", ("not valid TOML",)),
+    ("[input]\npath = 'x.csv'\nlabel = 'y'\n[[stages]]\nmethod = 'enn'\n[run]\n"
+     "recall_target = 1.5\n", ("line 7", "'recall_target'", "at most 1.0")),
 ])
 def test_errors_name_line_key_and_allowed_values(tmp_path, text, words):
     path = tmp_path / "p.toml"
