@@ -13,6 +13,13 @@ exact distance is not strictly below every outside candidate's lower bound is
 searched again: every reference row whose float32 value could be within the
 k-th distance is collected and ranked exactly, so the result is always exact.
 
+A self-search (every row a query among all rows, itself left out) computes
+each pair once: the product ``-2 a.b`` of one tile serves row a (adding
+``|b|^2``) and row b (adding ``|a|^2``), so only the tiles on and above the
+diagonal are computed. Each thread keeps its own candidate lists, merged at
+the end by (value, index); the same error bound applies, since each value is
+again a length-``d`` product plus one rounded addition.
+
 Manhattan distance has no product form: the scans compute exact float64
 distances tile by tile, with no second step.
 """
@@ -20,6 +27,7 @@ distances tile by tile, with no second step.
 from __future__ import annotations
 
 import contextlib
+import threading
 from collections.abc import Callable, Iterator
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
@@ -29,7 +37,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from curate.engine_exact import rank_pairs, rerank_fixed
-from curate.engine_kernels import collect_tile, l1_collect, l1_scan, scan_tile
+from curate.engine_kernels import collect_tile, l1_collect, l1_scan, merge_lists, scan_pair, scan_tile
 from curate.engine_plan import Plan, Request
 
 __all__ = ["fast_kneighbors", "fast_radius"]
@@ -215,6 +223,71 @@ def _scan_dtype(req: Request, thr: np.ndarray) -> np.ndarray:
     return np.where(low.astype(np.float64) < thr, np.nextafter(low, np.float32(np.inf)), low)
 
 
+def _symmetric(req: Request, plan: Plan) -> bool:
+    """Whether the request is a whole self-search whose per-thread lists fit the budget."""
+    n = len(req.queries)
+    if req.metric != "euclidean" or n != len(req.reference) or n < 2:
+        return False
+    # per thread: its lists (float32 values, int64 indices, threshold) and one tile;
+    # shared: the augmented rows, their norms and error bounds
+    need = plan.threads * (n * (plan.width * 12 + 4) + plan.tile ** 2 * 4) + \
+        n * ((req.dims + 1) * 4 + 24)
+    return (need <= plan.memory_mb * 2**20
+            and bool(np.array_equal(req.queries, req.reference))
+            and bool(np.array_equal(req.self_index, np.arange(n))))
+
+
+def _best_symmetric(req: Request, plan: Plan, qa: np.ndarray, qn: np.ndarray
+                    ) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's ``plan.width`` best candidates and threshold, every pair computed once."""
+    n, size = len(req.queries), plan.tile
+    norms = qn.astype(np.float32)  # |a|^2, rounded as the product's last column would be
+    lists: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
+    local = threading.local()
+    lock = threading.Lock()
+
+    def task(i0: int) -> None:
+        if not hasattr(local, "lists"):
+            local.lists = (np.full((n, plan.width), np.inf, dtype=np.float32),
+                           np.full((n, plan.width), -1, dtype=np.int64),
+                           np.full(n, np.inf, dtype=np.float32))
+            with lock:
+                lists.append(local.lists)
+        vals, idx, thr = local.lists
+        minus2a = np.ascontiguousarray(qa[i0:i0 + size, :-1])  # -2a, exact in float32
+        buf = np.empty((len(minus2a), size), dtype=np.float32)
+        for j0 in range(i0, n, size):
+            b = qa[j0:j0 + size, :-1] * np.float32(-0.5)  # the rows b themselves, exact
+            out = buf if len(b) == size else np.empty((len(minus2a), len(b)), dtype=np.float32)
+            np.matmul(minus2a, b.T, out=out)
+            scan_pair(out, i0, j0, norms, vals, idx, thr, j0 == i0)
+
+    starts = range(0, n, size)
+    if plan.threads == 1:
+        for i0 in starts:
+            task(i0)
+    else:
+        with ThreadPoolExecutor(plan.threads) as pool:
+            list(pool.map(task, starts))
+    vals, idx, thr = lists[0]
+    for other_vals, other_idx, _ in lists[1:]:
+        merge_lists(vals, idx, thr, other_vals, other_idx)
+    return idx, thr
+
+
+def _finish(req: Request, frame: _Frame, plan: Plan, k: int, qa: np.ndarray, qn: np.ndarray,
+            bound: np.ndarray, idx: np.ndarray, thr: np.ndarray
+            ) -> tuple[np.ndarray, np.ndarray]:
+    """Rank the candidates exactly; search again, wider, for queries not proven complete."""
+    lower = _lower(req, thr, qn, bound)
+    d, i, ok = rerank_fixed(req.matrix, req.queries, req.reference, idx, k, lower, req.metric)
+    bad = np.flatnonzero(~ok)
+    if len(bad):
+        d[bad], i[bad] = _widen(req.rows(bad), frame, plan, qa[bad],
+                                _scan_bound(req, qn[bad], bound[bad], d[bad, k - 1]), k)
+    return d, i
+
+
 def fast_kneighbors(req: Request, k: int, plan: Plan) -> tuple[np.ndarray, np.ndarray]:
     """Exact k nearest reference rows of each query (see the module notes).
 
@@ -230,20 +303,17 @@ def fast_kneighbors(req: Request, k: int, plan: Plan) -> tuple[np.ndarray, np.nd
     out_d = np.empty((len(req.queries), k))
     out_i = np.empty((len(req.queries), k), dtype=np.int64)
     with _one_blas_thread():
+        if _symmetric(req, plan):
+            qa, qn, bound = _queries(req, frame)
+            idx, thr = _best_symmetric(req, plan, qa, qn)
+            return _finish(req, frame, plan, k, qa, qn, bound, idx, thr)
         step = plan.rows
         for q0 in range(0, len(req.queries), step):
             rows = np.arange(q0, min(len(req.queries), q0 + step))
             sub = req.rows(rows)
             qa, qn, bound = _queries(sub, frame)
-            vals, idx, thr = _best(sub, frame, plan, qa)
-            lower = _lower(sub, thr, qn, bound)
-            d, i, ok = rerank_fixed(sub.matrix, sub.queries, sub.reference, idx, k, lower,
-                                    sub.metric)
-            bad = np.flatnonzero(~ok)
-            if len(bad):
-                d[bad], i[bad] = _widen(sub.rows(bad), frame, plan, qa[bad],
-                                        _scan_bound(sub, qn[bad], bound[bad], d[bad, k - 1]), k)
-            out_d[rows], out_i[rows] = d, i
+            _, idx, thr = _best(sub, frame, plan, qa)
+            out_d[rows], out_i[rows] = _finish(sub, frame, plan, k, qa, qn, bound, idx, thr)
     return out_d, out_i
 
 

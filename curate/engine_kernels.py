@@ -12,7 +12,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-__all__ = ["collect_tile", "l1_collect", "l1_scan", "scan_tile"]
+__all__ = ["collect_tile", "l1_collect", "l1_scan", "merge_lists", "scan_pair", "scan_tile"]
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
@@ -36,11 +36,10 @@ def _insert(vals: np.ndarray, idx: np.ndarray, row: int, value: float, j: int) -
 def _scan_row(values: np.ndarray, j0: int, own: int, row: int, vals: np.ndarray,
               idx: np.ndarray, thr: np.ndarray) -> None:
     t = thr[row]
-    below = 0
+    below = False
     for j in range(values.shape[0]):  # vectorised: almost every tile row stops here
-        if values[j] < t:
-            below += 1
-    if below == 0:
+        below |= values[j] < t  # an or, not a count: a count vectorises 2.5x slower here
+    if not below:
         return
     for j in range(values.shape[0]):
         v = values[j]
@@ -55,6 +54,77 @@ def scan_tile(tile: np.ndarray, j0: int, own: np.ndarray, vals: np.ndarray, idx:
     """Update each row's candidate buffer with one tile of values (column ``j`` is ``j0 + j``)."""
     for row in range(tile.shape[0]):
         _scan_row(tile[row], j0, own[row], row, vals, idx, thr)
+
+
+@numba.njit(cache=True, nogil=True)
+def scan_pair(tile: np.ndarray, i0: int, j0: int, norms: np.ndarray, vals: np.ndarray,
+              idx: np.ndarray, thr: np.ndarray, diagonal: bool) -> None:
+    """One tile of a self-search, for both sides: rows ``i0 + r`` and columns ``j0 + j``.
+
+    ``tile[r, j]`` is ``-2 a.b`` for rows a = ``i0 + r`` and b = ``j0 + j``, and
+    ``norms`` holds every row's ``|x|^2``. Row a ranks b by ``|b|^2 - 2 a.b`` and
+    row b ranks a by ``|a|^2 - 2 a.b`` (each leaves out its own ``|x|^2``, the
+    same along its list), so one product serves both. A diagonal tile (the
+    same rows on both sides) is scanned along rows only: that covers it all.
+    """
+    width = tile.shape[1]
+    col_norms = norms[j0:j0 + width]  # 1-d views: the loops below vectorise only on these
+    col_thr = thr[j0:j0 + width]
+    for r in range(tile.shape[0]):
+        a = i0 + r
+        row = tile[r]
+        t = thr[a]
+        below = False
+        for j in range(width):  # vectorised
+            below |= row[j] + col_norms[j] < t
+        if below:
+            for j in range(width):
+                v = row[j] + col_norms[j]
+                if v < t and j0 + j != a:
+                    t = _insert(vals, idx, a, v, j0 + j)
+            thr[a] = t
+        if diagonal:
+            continue
+        na = norms[a]
+        below = False
+        for j in range(width):  # vectorised: each column against its own threshold
+            below |= row[j] + na < col_thr[j]
+        if below:
+            for j in range(width):
+                v = row[j] + na
+                if v < col_thr[j]:
+                    col_thr[j] = _insert(vals, idx, j0 + j, v, a)
+
+
+@numba.njit(cache=True, nogil=True)
+def merge_lists(vals: np.ndarray, idx: np.ndarray, thr: np.ndarray, other_vals: np.ndarray,
+                other_idx: np.ndarray) -> None:
+    """Fold the other candidate lists into ``vals``/``idx`` (best by value, then index).
+
+    Afterwards ``thr`` is each list's worst value (inf while it has empty slots):
+    a row either list dropped was above that list's own worst, which the
+    merged list is at most.
+    """
+    width = vals.shape[1]
+    for row in range(vals.shape[0]):
+        for s in range(width):
+            j = other_idx[row, s]
+            if j < 0:
+                continue
+            v = other_vals[row, s]
+            worst = 0
+            for t in range(1, width):
+                if vals[row, t] > vals[row, worst] or (
+                        vals[row, t] == vals[row, worst] and idx[row, t] > idx[row, worst]):
+                    worst = t
+            if v < vals[row, worst] or (v == vals[row, worst] and
+                                        (idx[row, worst] < 0 or j < idx[row, worst])):
+                vals[row, worst] = v
+                idx[row, worst] = j
+        top = vals[row, 0]
+        for t in range(1, width):
+            top = max(top, vals[row, t])
+        thr[row] = top
 
 
 @numba.njit(cache=True, nogil=True)
