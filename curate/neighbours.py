@@ -23,7 +23,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -283,13 +283,20 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
     _check_k(k, req, exclude_self)
     if len(req.queries) == 0:
         return np.empty((0, k)), np.empty((0, k), dtype=np.int64)
+    sizes = (k, len(req.queries), len(req.reference))
     if space.engine.cluster is not None:
         from curate.distributed import kneighbors_on_cluster
 
+        # Blocks on the workers are searched exactly: an approximate index per block
+        # would be rebuilt by every task, and its recall measured where no one records it.
+        if space.engine.backend == "approximate":
+            space = replace(space, engine=replace(space.engine, backend="fast"))
+        backend, reason = choose_backend(space, len(req.queries), len(req.reference))
+        _note(EngineCall(backend, f"in blocks on the cluster's workers, each choosing: {reason}",
+                         *sizes))
         return kneighbors_on_cluster(space, k, queries=req.queries, reference=req.reference,
                                      exclude_self=exclude_self)
     backend, reason = choose_backend(space, len(req.queries), len(req.reference))
-    sizes = (k, len(req.queries), len(req.reference))
     if backend == "approximate":
         from curate.engine_approx import approximate_kneighbors
 

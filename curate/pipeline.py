@@ -334,8 +334,8 @@ def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any
                 "recall": worst["recall"], "recall_sample": sum(e["recall_sample"] for e in approx),
                 "recall_target": prep.space.engine.recall_target}
     if backend == "approximate":
-        backend, reason = "fast", ("approximate asked for, but no stage made a k-nearest query "
-                                   "it answers: every neighbour was found exactly")
+        backend, reason = "fast", ("approximate asked for, but every neighbour was found "
+                                   "exactly: radius queries, or blocks on a cluster")
     return {"backend": backend, "reason": reason, "exact": True, "recall": 1.0,
             "recall_sample": 0}
 

@@ -55,6 +55,24 @@ def test_enn_on_cluster_equals_local(address: str, tmp_path: Path, name: str, bl
     assert info["address"] == address and info["tasks"] >= 3
 
 
+def test_approximate_asked_on_a_cluster_searches_exactly(address: str, tmp_path: Path) -> None:
+    """The approximate index is local only: on a cluster the blocks are searched exactly,
+    so the run equals the local exact run, and summary.json says so."""
+    from curate.api import run
+
+    path = write_bundled("wine", tmp_path)
+    stages = [{"method": "enn", "k": 3, "max_removed_share": 1.0}]
+    local = run_pipeline(path, stages)
+    remote = run({"input": {"path": str(path), "label": "y"}, "stages": stages,
+                  "run": {"backend": "approximate"},
+                  "cluster": {"address": address, "block_rows": 40}}, base=path.parent)
+    _same_run(local, remote)
+    assert remote.summary["engine"]["exact"] is True
+    assert "cluster" in remote.summary["engine"]["reason"]
+    engine = remote.summary["stages"][0]["info"]["engine"]
+    assert engine["backends"] == ["fast"] and engine["exact"] is True
+
+
 def test_duplicates_on_cluster_equal_local(address: str, tmp_path: Path) -> None:
     """Duplicates: exact and radius (near) copies planted in breast cancer, found identically."""
     path = write_bundled("breast_cancer", tmp_path, copies=12, near=15, seed=3)
