@@ -137,28 +137,41 @@ def _group(cells, probes, lists):  # pragma: no cover - compiled
 
 
 def _build(req: Request, plan: Plan) -> _Index:
-    ref = req.matrix[req.reference]
-    n = len(ref)
+    """Centres, cells and the packed rows; the rows are read a piece at a time."""
+    n, dims = len(req.reference), req.dims
+    piece = max(1, plan.memory_mb * 2**20 // 8 // (8 * max(1, dims)))
     lists = int(max(1, min(n, round(LISTS_PER_ROOT * np.sqrt(n)))))
     rng = np.random.default_rng(INDEX_SEED)
-    centres = ref[np.sort(rng.choice(n, size=lists, replace=False))].copy()
-    train = ref[np.sort(rng.choice(n, size=min(n, TRAIN_PER_LIST * lists), replace=False))]
+    centres = req.matrix[req.reference[np.sort(rng.choice(n, size=lists, replace=False))]]
+    train = req.reference[np.sort(rng.choice(n, size=min(n, TRAIN_PER_LIST * lists),
+                                             replace=False))]
     for _ in range(TRAIN_STEPS):  # Lloyd's steps; a centre with no rows stays where it is
-        cell = _nearest_centres(train, centres, 1, plan)[:, 0]
-        counts = np.bincount(cell, minlength=lists)
+        counts = np.zeros(lists)
+        sums = np.zeros((lists, dims))
+        for lo in range(0, len(train), piece):
+            block = req.matrix[train[lo:lo + piece]]
+            cell = _nearest_centres(block, centres, 1, plan)[:, 0]
+            counts += np.bincount(cell, minlength=lists)
+            for c in range(dims):
+                sums[:, c] += np.bincount(cell, weights=block[:, c], minlength=lists)
         filled = counts > 0
-        for c in range(ref.shape[1]):
-            centres[filled, c] = np.bincount(cell, weights=train[:, c],
-                                             minlength=lists)[filled] / counts[filled]
-    cell = _nearest_centres(ref, centres, 1, plan)[:, 0]
+        centres[filled] = sums[filled] / counts[filled, None]
+    cell = np.empty(n, dtype=np.int64)
+    total = np.zeros(dims)
+    for lo in range(0, n, piece):
+        block = req.matrix[req.reference[lo:lo + piece]]
+        cell[lo:lo + piece] = _nearest_centres(block, centres, 1, plan)[:, 0]
+        total += block.sum(axis=0)
+    mean = total / max(1, n)
     members = np.argsort(cell, kind="stable")  # cell by cell, positions ascending inside
     offsets = np.concatenate([[0], np.cumsum(np.bincount(cell, minlength=lists))])
-    mean = ref.mean(axis=0) if n else np.zeros(ref.shape[1])
-    rows = (ref[members] - mean).astype(np.float32)
-    packed = np.empty((n, ref.shape[1] + 1), dtype=np.float32)
-    packed[:, :-1] = rows
-    wide = rows.astype(np.float64)
-    packed[:, -1] = np.einsum("ij,ij->i", wide, wide)
+    del cell
+    packed = np.empty((n, dims + 1), dtype=np.float32)
+    for lo in range(0, n, piece):
+        rows = (req.matrix[req.reference[members[lo:lo + piece]]] - mean).astype(np.float32)
+        packed[lo:lo + piece, :-1] = rows
+        wide = rows.astype(np.float64)
+        packed[lo:lo + piece, -1] = np.einsum("ij,ij->i", wide, wide)
     return _Index(centres, offsets.astype(np.int64), packed, members.astype(np.int64), mean)
 
 
@@ -217,6 +230,7 @@ def _candidates(req: Request, index: _Index, rows: np.ndarray, probes: int, widt
     sizes = np.diff(index.offsets)
     bounds = _split(np.diff(starts) * sizes, plan.threads)
     own = req.self_index[rows]
+    tile_bytes = max(2**16, plan.memory_mb * 2**20 // (8 * plan.threads))
 
     def task(part: int) -> tuple[np.ndarray, np.ndarray]:
         best_v = np.full((len(rows), width), np.inf, dtype=np.float32)
@@ -225,9 +239,11 @@ def _candidates(req: Request, index: _Index, rows: np.ndarray, probes: int, widt
             a, b = index.offsets[c], index.offsets[c + 1]
             if a == b or starts[c] == starts[c + 1]:
                 continue
-            who = who_all[starts[c]:starts[c + 1]]
-            values = qa[who] @ index.packed[a:b].T
-            _update(values, who, index.members[a:b], own, best_v, best_i)
+            step = max(1, tile_bytes // (4 * (b - a)))  # queries per product: one tile
+            for lo in range(starts[c], starts[c + 1], step):
+                who = who_all[lo:min(starts[c + 1], lo + step)]
+                values = qa[who] @ index.packed[a:b].T
+                _update(values, who, index.members[a:b], own, best_v, best_i)
         return best_v, best_i
 
     with threadpool_limits(limits=1, user_api="blas"):
@@ -247,8 +263,10 @@ def _search(req: Request, index: _Index, k: int, probes: int, plan: Plan
     width = k + SPARE
     out_d = np.empty((len(req.queries), k))
     out_i = np.empty((len(req.queries), k), dtype=np.int64)
-    # per query in flight: its probes (int64, twice: cells and their order) and lists
-    step = max(1024, plan.memory_mb * 2**20 // 4 // (24 * probes + 16 * width + 100))
+    # per query in flight: its rows (float64, float32 and augmented), its probes (int64,
+    # twice: cells and the grouping), each thread's lists and the exact ranking's arrays
+    per_query = 16 * req.dims + 4 + 16 * probes + (plan.threads + 3) * width * 12
+    step = max(64, plan.memory_mb * 2**20 // 4 // per_query)
     for s in range(0, len(req.queries), step):
         rows = np.arange(s, min(len(req.queries), s + step))
         found = _candidates(req, index, rows, probes, width, plan)
@@ -310,7 +328,7 @@ def approximate_kneighbors(req: Request, k: int, plan: Plan, target: float = REC
     pick = sample_queries(len(req.queries), sample, seed)
     sub = req.rows(pick)
     exact = fast_kneighbors(sub, k, plan)[1]
-    probes = _probes_for(sub, exact, index, target)
+    probes = _probes_for(sub, exact, index, target, plan)
     while True:
         dist, pos = _search(sub, index, k, probes, plan)
         measured = measure_recall(pos, exact, sub.queries, k)
@@ -322,7 +340,8 @@ def approximate_kneighbors(req: Request, k: int, plan: Plan, target: float = REC
     return dist, pos, Recall(measured.recall, sub.queries, k, probes, index.lists)
 
 
-def _probes_for(sub: Request, exact: np.ndarray, index: _Index, target: float) -> int:
+def _probes_for(sub: Request, exact: np.ndarray, index: _Index, target: float,
+                plan: Plan) -> int:
     """The fewest cells whose probing would reach ``target`` on the sample.
 
     A sampled query finds an exact neighbour when that neighbour's cell is among
@@ -332,12 +351,20 @@ def _probes_for(sub: Request, exact: np.ndarray, index: _Index, target: float) -
     """
     cell_of = np.empty(len(index.members), dtype=np.int64)
     cell_of[index.members] = np.repeat(np.arange(index.lists), np.diff(index.offsets))
-    q = sub.matrix[sub.queries]
-    d = np.einsum("ij,ij->i", index.centres, index.centres) - 2.0 * (q @ index.centres.T)
-    rank = np.empty_like(d, dtype=np.int64)
-    np.put_along_axis(rank, np.argsort(d, axis=1, kind="stable"),
-                      np.arange(index.lists)[None, :], axis=1)
     cells = cell_of[np.searchsorted(sub.reference, exact)]
-    needed = np.sort(np.take_along_axis(rank, cells, axis=1).reshape(-1))
+    c2 = np.einsum("ij,ij->i", index.centres, index.centres)
+    order = np.arange(index.lists)
+    needed = np.empty(cells.shape, dtype=np.int64)
+    # a piece of the sample at a time: distances to every centre, and a comparison
+    step = max(1, plan.memory_mb * 2**20 // 4 // (16 * index.lists))
+    for lo in range(0, len(cells), step):
+        d = c2 - 2.0 * (sub.matrix[sub.queries[lo:lo + step]] @ index.centres.T)
+        for j in range(cells.shape[1]):
+            mine = cells[lo:lo + step, j]
+            own = np.take_along_axis(d, mine[:, None], axis=1)
+            # the cell's rank among the query's centres, ties to the lower index
+            needed[lo:lo + step, j] = (d < own).sum(axis=1) + \
+                ((d == own) & (order < mine[:, None])).sum(axis=1)
+    needed = np.sort(needed.reshape(-1))
     at = min(len(needed) - 1, max(0, int(np.ceil(target * len(needed))) - 1))
     return int(min(index.lists, needed[at] + 1)) if len(needed) else 1
