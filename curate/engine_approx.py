@@ -7,13 +7,15 @@ nearest to it. That is the inverted-file scheme (Sivic and Zisserman 2003;
 Jegou, Douze and Schmid 2011, with exact rather than compressed rows).
 
 How many cells to probe is not guessed: a seeded sample of the queries is
-answered exactly (the fast exact engine) and by the index, and the number of
-probes doubles until the sample's recall (the share of each sampled query's
-exact ``k`` nearest that the index returns) reaches the target, 0.99 unless
-``[run] recall_target`` says otherwise. Every query is then answered with
-that many probes; the sampled queries get exactly the answers that were
-measured, so the recall written to summary.json is the recall of the answers
-the stage used, on that sample.
+answered exactly (the fast exact engine); the rank of each exact neighbour's
+cell among its query's nearest centres gives the fewest probes that reach the
+target recall (the share of each sampled query's exact ``k`` nearest that the
+index returns), 0.99 unless ``[run] recall_target`` says otherwise. The sample
+is searched to confirm it (25% more probes while float32 rounding leaves it
+short). Every query is then answered with that many probes, and the recall
+is measured once more on the sampled queries' answers from that full search,
+so the recall written to summary.json is the recall of the answers the stage
+used, on that sample.
 
 Everything is deterministic: the centres come from a fixed seed, the cells
 are computed in float64 with one BLAS thread per block, and each query's scan
@@ -312,7 +314,8 @@ def approximate_kneighbors(req: Request, k: int, plan: Plan, target: float = REC
     """Approximate k nearest reference rows (Euclidean) and the recall measured on a sample.
 
     ``sample_only`` answers the sampled queries only (their rows in the order of
-    ``Recall.sampled``): what a full query would measure, without running it.
+    ``Recall.sampled``): what a full query would measure, up to float32 rounding
+    in the products, without running it.
 
     Examples
     --------
@@ -337,6 +340,7 @@ def approximate_kneighbors(req: Request, k: int, plan: Plan, target: float = REC
         probes = min(index.lists, max(probes + 1, probes * 5 // 4))
     if not sample_only:
         dist, pos = _search(req, index, k, probes, plan)
+        measured = measure_recall(pos[pick], exact, sub.queries, k)
     return dist, pos, Recall(measured.recall, sub.queries, k, probes, index.lists)
 
 
