@@ -27,21 +27,17 @@ neighbours is approximate.
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
-from typing import TypeVar
 
 import numba
 import numpy as np
 from threadpoolctl import threadpool_limits
 
 from curate.engine_exact import exact_pairs
-from curate.engine_plan import Plan, Request
+from curate.engine_plan import Plan, Request, run_tasks
 
 __all__ = ["INDEX_SEED", "RECALL_TARGET", "Recall", "approximate_kneighbors", "measure_recall"]
 
-T = TypeVar("T")
 INDEX_SEED = 0  # centres and recall sample: fixed so that runs repeat
 RECALL_TARGET = 0.99
 RECALL_SAMPLE = 500
@@ -86,13 +82,6 @@ class _Index:
         return int(len(self.centres))
 
 
-def _pool(plan: Plan, starts: range | list[int], task: Callable[[int], T]) -> list[T]:
-    if plan.threads == 1 or len(starts) <= 1:
-        return [task(s) for s in starts]
-    with ThreadPoolExecutor(plan.threads) as pool:
-        return list(pool.map(task, starts))
-
-
 def _nearest_centres(rows: np.ndarray, centres: np.ndarray, count: int, plan: Plan
                      ) -> np.ndarray:
     """Indices of the ``count`` nearest centres of each row (float64; in no set order)."""
@@ -117,7 +106,7 @@ def _nearest_centres(rows: np.ndarray, centres: np.ndarray, count: int, plan: Pl
             out[s:s + step] = np.arange(d.shape[1])
 
     with threadpool_limits(limits=1, user_api="blas"):
-        _pool(plan, range(0, len(rows), step), task)
+        run_tasks(plan.threads, range(0, len(rows), step), task)
     return out
 
 
@@ -249,7 +238,7 @@ def _candidates(req: Request, index: _Index, rows: np.ndarray, probes: int, widt
         return best_v, best_i
 
     with threadpool_limits(limits=1, user_api="blas"):
-        found = _pool(plan, list(range(len(bounds) - 1)), task)
+        found = run_tasks(plan.threads, range(len(bounds) - 1), task)
     if len(found) == 1:
         return found[0][1]
     v = np.concatenate([f[0] for f in found], axis=1)

@@ -29,7 +29,6 @@ from __future__ import annotations
 import contextlib
 import threading
 from collections.abc import Callable, Iterator
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import TypeVar
 
@@ -38,7 +37,7 @@ from threadpoolctl import threadpool_limits
 
 from curate.engine_exact import rank_pairs, rerank_fixed
 from curate.engine_kernels import collect_tile, l1_collect, l1_scan, merge_lists, scan_pair, scan_tile
-from curate.engine_plan import Plan, Request
+from curate.engine_plan import Plan, Request, run_tasks
 
 __all__ = ["fast_kneighbors", "fast_radius"]
 
@@ -122,11 +121,7 @@ def _one_blas_thread() -> contextlib.AbstractContextManager[object]:
 
 def _run(n_rows: int, plan: Plan, task: Callable[[int], T]) -> list[T]:
     """Run ``task(start)`` for every block of rows, on ``plan.threads`` threads."""
-    starts = range(0, n_rows, plan.block)
-    if plan.threads == 1 or len(starts) == 1:
-        return [task(s) for s in starts]
-    with ThreadPoolExecutor(plan.threads) as pool:
-        return list(pool.map(task, starts))
+    return run_tasks(plan.threads, range(0, n_rows, plan.block), task)
 
 
 def _gemm_tiles(qa: np.ndarray, slab: np.ndarray, tile: int) -> Iterator[tuple[int, np.ndarray]]:
@@ -262,13 +257,7 @@ def _best_symmetric(req: Request, plan: Plan, qa: np.ndarray, qn: np.ndarray
             np.matmul(minus2a, b.T, out=out)
             scan_pair(out, i0, j0, norms, vals, idx, thr, j0 == i0)
 
-    starts = range(0, n, size)
-    if plan.threads == 1:
-        for i0 in starts:
-            task(i0)
-    else:
-        with ThreadPoolExecutor(plan.threads) as pool:
-            list(pool.map(task, starts))
+    run_tasks(plan.threads, range(0, n, size), task)
     vals, idx, thr = lists[0]
     for other_vals, other_idx, _ in lists[1:]:
         merge_lists(vals, idx, thr, other_vals, other_idx)

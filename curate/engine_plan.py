@@ -9,13 +9,18 @@ the index of its own row among the reference rows when it must be left out.
 from __future__ import annotations
 
 import os
+from collections.abc import Callable, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from typing import TypeVar
 
 import numpy as np
 
 from curate.errors import UsageError
 
-__all__ = ["Plan", "Request", "make_request", "plan_for", "worker_count"]
+__all__ = ["Plan", "Request", "make_request", "plan_for", "run_tasks", "worker_count"]
+
+T = TypeVar("T")
 
 
 @dataclass(frozen=True)
@@ -86,6 +91,20 @@ def worker_count() -> int:
         return max(1, len(os.sched_getaffinity(0)))
     except AttributeError:  # platforms without affinity masks
         return max(1, os.cpu_count() or 1)
+
+
+def run_tasks(threads: int, starts: Sequence[int], task: Callable[[int], T]) -> list[T]:
+    """``[task(s) for s in starts]`` on up to ``threads`` threads, results in order.
+
+    Examples
+    --------
+    >>> run_tasks(2, range(0, 6, 2), lambda s: s * 10)
+    [0, 20, 40]
+    """
+    if threads <= 1 or len(starts) <= 1:
+        return [task(s) for s in starts]
+    with ThreadPoolExecutor(threads) as pool:
+        return list(pool.map(task, starts))
 
 
 @dataclass(frozen=True)
