@@ -408,7 +408,8 @@ def engine_report(space: Space, k: int, *, queries: np.ndarray | None = None,
     from curate.engine_approx import approximate_kneighbors
 
     # The index and the probes chosen depend only on the reference rows, the sampled
-    # queries and the target, so this is the recall the full query measures for itself.
+    # queries and the target, so this is the recall the full query measures for itself
+    # (up to float32 rounding in products of another shape).
     _, _, measured = approximate_kneighbors(req, k, _plan(space, req, k),
                                             space.engine.recall_target, sample, seed,
                                             sample_only=True)
