@@ -25,7 +25,7 @@ import numpy as np
 
 from curate.errors import InputError, first_ids
 
-__all__ = ["check_targets", "neighbour_mean_std", "out_of_fold_residuals", "quantile_bins",
+__all__ = ["check_targets", "describe_target", "neighbour_mean_std", "out_of_fold_residuals", "quantile_bins",
            "regression_folds", "scaled_residuals", "target_spread", "value_writer"]
 
 
@@ -100,6 +100,25 @@ def target_spread(targets: np.ndarray) -> float:
     1.0
     """
     return float(np.std(np.asarray(targets, dtype=np.float64)))
+
+
+def describe_target(values: np.ndarray) -> dict[str, float | int | None]:
+    """Count, mean, standard deviation (ddof 0) and quartiles of a target, for summary.json.
+
+    Examples
+    --------
+    >>> describe_target(np.array([1.0, 2.0, 3.0, 4.0, 5.0]))["median"]
+    3.0
+    >>> describe_target(np.zeros(0))["mean"] is None
+    True
+    """
+    y = np.asarray(values, dtype=np.float64)
+    names = ("min", "q25", "median", "q75", "max")
+    if len(y) == 0:
+        return {"rows": 0, "mean": None, "sd": None} | dict.fromkeys(names)
+    quartiles = np.quantile(y, (0.0, 0.25, 0.5, 0.75, 1.0))
+    return {"rows": int(len(y)), "mean": float(y.mean()), "sd": float(y.std())} | {
+        name: float(q) for name, q in zip(names, quartiles, strict=True)}
 
 
 def scaled_residuals(targets: np.ndarray, predicted: np.ndarray,
