@@ -16,7 +16,7 @@ import polars as pl
 from sklearn.datasets import load_breast_cancer, load_digits, load_wine
 
 from curate.api import run
-from curate.pipeline import RunResult
+from curate.pipeline.records import RunResult
 
 LOADERS = {"wine": load_wine, "breast_cancer": load_breast_cancer, "digits": load_digits}
 

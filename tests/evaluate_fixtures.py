@@ -12,7 +12,8 @@ from typing import Any
 import numpy as np
 import polars as pl
 
-from curate.spec import Spec, spec_from_dict
+from curate.settings import Spec
+from curate.spec import spec_from_dict
 
 NOTHING_REMOVED = [{"method": "exact-duplicates"}]
 

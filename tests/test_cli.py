@@ -104,7 +104,7 @@ def test_distances_reports_a_radius_profile(make_pipeline, two_blobs, capsys):
     """The candidate counts agree with a direct scipy cdist computation on the same space."""
     from scipy.spatial.distance import cdist
 
-    from curate.pipeline import prepare
+    from curate.pipeline.prepare import prepare
     from curate.spec import load_spec
 
     path = make_pipeline(two_blobs, STAGES)

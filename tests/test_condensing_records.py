@@ -9,10 +9,10 @@ from scipy.spatial.distance import cdist
 
 from curate.errors import UsageError
 from curate.methods import METHODS
-from curate.methods.base import check_params
+from curate.methods._store import NearestStore
 from curate.methods.condensing import cnn, fcnn, rnn
 from curate.methods.one_sided import one_sided_selection
-from curate.methods.store import NearestStore
+from curate.settings import check_params
 from curate.space import Space
 
 CONDENSING = {"cnn": cnn, "fcnn": fcnn, "rnn": rnn}

@@ -2,7 +2,7 @@
 
 Outside references: pandera (the schema check), polars (duplicate detection),
 scikit-learn (a k-nearest-neighbour classifier for separability). The shares
-checked below are the generator's own specification (curate.demo_data.FAULT_SHARES,
+checked below are the generator's own specification (curate.demo.data.FAULT_SHARES,
 from the project brief), not results produced by curate's cleaning code.
 """
 
@@ -19,7 +19,7 @@ import pytest
 from sklearn.model_selection import StratifiedKFold, cross_val_score
 from sklearn.neighbors import KNeighborsClassifier
 
-from curate import demo_data
+from curate.demo import data as demo_data
 from curate.errors import UsageError
 
 ROWS = 2000

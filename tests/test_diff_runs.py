@@ -14,7 +14,7 @@ import pytest
 from review_runs import audit_of, kept_of, make_run, wine_table
 
 from curate.cli import main
-from curate.review import diff_runs
+from curate.io.diff import diff_runs
 
 
 @pytest.fixture

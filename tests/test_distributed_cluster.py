@@ -22,8 +22,8 @@ from cluster_fixtures import local_cluster, run_pipeline, write_bundled
 from sklearn.neighbors import KNeighborsClassifier
 
 from curate.cli import main
+from curate.cluster.partitioned import partitioned_selection, stratified_parts
 from curate.methods import METHODS
-from curate.partitioned import partitioned_selection, stratified_parts
 
 
 @pytest.fixture(scope="module")

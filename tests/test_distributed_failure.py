@@ -20,11 +20,12 @@ import pytest
 from cluster_fixtures import local_cluster, write_bundled
 
 from curate.api import run
-from curate.distributed import ClusterError
+from curate.cluster.partitioned import partitioned_selection
+from curate.errors import ClusterError
 from curate.methods import METHODS
-from curate.methods.base import MethodInfo, Param, Selection
+from curate.methods.base import MethodInfo, Selection
 from curate.methods.condensing import cnn
-from curate.partitioned import partitioned_selection
+from curate.settings import Param
 
 
 def dies_once(space, labels: np.ndarray, *, removable: np.ndarray, seed: int,
@@ -45,7 +46,8 @@ def always_dies(space, labels: np.ndarray, *, removable: np.ndarray, seed: int,
 
 def _info(key: str, func) -> MethodInfo:
     return MethodInfo(key=key, name=key, family="condensing", reference="test",
-                      purpose="kill a worker", func=func,
+                      purpose="kill a worker", func=func, compares_classes=True,
+                      runs_partitioned=True,
                       params=(Param("marker", str, "", "file that marks the first call"),),
                       reasons={"absorbed": "absorbed"})
 

@@ -21,14 +21,16 @@ from sklearn.model_selection import StratifiedKFold
 from sklearn.neighbors import KNeighborsClassifier
 from sklearn.preprocessing import MinMaxScaler
 
-from curate.distributed import cluster_session, kneighbors_on_cluster
+from curate.cluster.partitioned import partitioned_selection, stratified_parts
+from curate.cluster.session import cluster_session
+from curate.cluster.stage import kneighbors_on_cluster
 from curate.errors import PipelineFileError
 from curate.methods.condensing import cnn
 from curate.methods.editing import enn
 from curate.neighbours import kneighbors
-from curate.partitioned import partitioned_selection, stratified_parts
-from curate.space import EngineSettings, Space
-from curate.spec import ClusterSettings, spec_from_dict
+from curate.settings import ClusterSettings, EngineSettings
+from curate.space import Space
+from curate.spec import spec_from_dict
 
 BASE = {"input": {"path": "x.csv", "label": "y"}, "stages": [{"method": "enn"}]}
 
@@ -111,7 +113,7 @@ def test_without_a_session_the_local_engine_answers() -> None:
     """A space that names a cluster but has no open session gets the local engine's answer."""
     X, _ = _wine()
     plain = Space.from_matrix(X)
-    named = Space.from_matrix(X, engine=EngineSettings(cluster="tcp://127.0.0.1:1"))
+    named = Space.from_matrix(X, engine=EngineSettings(cluster_address="tcp://127.0.0.1:1"))
     for got, want in zip(kneighbors_on_cluster(named, 4), kneighbors(plain, 4), strict=True):
         assert np.array_equal(got, want)
 
@@ -124,8 +126,8 @@ def test_no_address_no_session() -> None:
 def test_cluster_section_is_checked() -> None:
     spec = spec_from_dict({**BASE, "cluster": {"address": "local:2", "partitions": 4,
                                                 "block_rows": 100, "retries": 0}})
-    assert spec.cluster.partitions == 4 and spec.run.engine.cluster == "local:2"
-    assert spec_from_dict(BASE).run.engine.cluster is None
+    assert spec.cluster.partitions == 4 and spec.run.engine.cluster_address == "local:2"
+    assert spec_from_dict(BASE).run.engine.cluster_address is None
     for bad in ({"address": "local:0"}, {"address": "local:x"}, {"partitions": 0},
                 {"block_rows": 0}, {"timeout": 0}, {"workers": 2}):
         with pytest.raises(PipelineFileError, match=r"\[cluster\]"):

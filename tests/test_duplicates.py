@@ -9,8 +9,10 @@ import polars as pl
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from curate.errors import ConstantColumnWarning
 from curate.methods.duplicates import conflicting_duplicates, exact_duplicates
-from curate.space import ConstantColumnWarning, SpaceSettings, build_space
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 KINDS = {"a": "int", "b": "category"}
 

@@ -15,7 +15,7 @@ from sklearn.neighbors import NearestNeighbors
 
 from curate.api import run
 from curate.neighbours import kneighbors
-from curate.pipeline import prepare
+from curate.pipeline.prepare import prepare
 from curate.spec import spec_from_dict
 
 
@@ -59,7 +59,7 @@ def test_each_stage_records_the_engine_it_used_and_the_run_takes_the_lowest_reca
     assert summary["engine"]["recall"] == min(recalls)
     assert summary["engine"]["recall_target"] == 0.99
     assert all(r >= 0.99 for r in recalls)  # wine is small: the sample is every row
-    from curate.report import render_run
+    from curate.report.html import render_run
 
     page = render_run(result)
     assert page.count("neighbours from the approximate engine") == 2

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 from neighbour_fixtures import assert_same, reference_knn, tied_matrix
 
-from curate.engine_fast import _symmetric, fast_kneighbors
-from curate.engine_plan import make_request, plan_for
+from curate.neighbours._fast import _symmetric, fast_kneighbors
+from curate.neighbours._plan import make_request, plan_for
 
 
 @pytest.mark.parametrize("threads", [1, 2, 3])

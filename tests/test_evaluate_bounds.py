@@ -17,7 +17,7 @@ import pytest
 from evaluate_fixtures import gaussians_csv, spec_for
 from scipy.stats import norm
 
-from curate.evaluate import evaluate
+from curate.evaluation.crossval import evaluate
 
 ROWS = 3000
 

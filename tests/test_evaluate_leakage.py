@@ -21,7 +21,7 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import MinMaxScaler
 
 from curate.api import run
-from curate.evaluate import evaluate
+from curate.evaluation.crossval import evaluate
 
 ROWS, MU, RHO, K = 1500, 1.5, 0.2, 7
 

@@ -12,9 +12,9 @@ import pytest
 from evaluate_fixtures import gaussians_csv, spec_for
 
 from curate.api import run
+from curate.cli.render import evaluation_text
 from curate.errors import SafetyLimitError
-from curate.evaluate import evaluate
-from curate.report import evaluation_text
+from curate.evaluation.crossval import evaluate
 
 
 def test_evaluation_counts_the_folds_where_a_stage_went_over_its_limit(tmp_path) -> None:

@@ -22,8 +22,9 @@ from sklearn.datasets import load_iris
 from sklearn.model_selection import StratifiedKFold, cross_val_score
 from sklearn.neighbors import KNeighborsClassifier
 
-from curate.evaluate import evaluate
-from curate.space import SpaceSettings, build_space
+from curate.evaluation.crossval import evaluate
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 FOLDS, SEED = 5, 1
 

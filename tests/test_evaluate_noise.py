@@ -20,9 +20,9 @@ from sklearn.datasets import load_breast_cancer
 from sklearn.model_selection import StratifiedKFold
 from sklearn.preprocessing import MinMaxScaler
 
-from curate import demo_data
-from curate.evaluate import evaluate
-from curate.stats import flip_labels
+from curate.demo import data as demo_data
+from curate.evaluation.crossval import evaluate
+from curate.evaluation.stats import flip_labels
 
 FOLDS, SEED, RATE = 4, 2, 0.1
 

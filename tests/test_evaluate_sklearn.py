@@ -21,7 +21,7 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import MinMaxScaler
 from sklearn.tree import DecisionTreeClassifier
 
-from curate.evaluate import evaluate
+from curate.evaluation.crossval import evaluate
 
 FOLDS, SEED = 5, 3
 

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from curate.stats import corrected_resampled_ttest, flip_labels, majority_accuracy
+from curate.evaluation.stats import corrected_resampled_ttest, flip_labels, majority_accuracy
 
 
 def paired(seed: int, j: int = 10) -> tuple[np.ndarray, np.ndarray]:

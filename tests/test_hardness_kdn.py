@@ -15,8 +15,8 @@ from sklearn.neighbors import NearestNeighbors
 
 from curate.errors import UsageError
 from curate.methods import METHODS
-from curate.methods.base import check_params
-from curate.methods.near import hardness
+from curate.methods.scores import hardness
+from curate.settings import check_params
 from curate.space import Space
 
 

@@ -1,6 +1,6 @@
 """Near copies (leader scheme) against brute-force pairwise distances from scipy's cdist.
 
-What curate guarantees (module docstring of curate.methods.near), each
+What curate guarantees (module docstring of curate.methods.duplicates), each
 checked here against ``cdist``:
 - every removed copy is within the radius of its ``kept_as``, which is kept
   and has the same label;
@@ -22,8 +22,8 @@ from scipy.spatial.distance import cdist
 
 from curate.errors import UsageError
 from curate.methods import METHODS
-from curate.methods.base import check_params
-from curate.methods.near import near_duplicates
+from curate.methods.duplicates import near_duplicates
+from curate.settings import check_params
 from curate.space import Space
 
 

@@ -13,7 +13,7 @@ import json
 import numpy as np
 from scipy.spatial.distance import cdist
 
-from curate.methods.near import distance_profile, near_duplicates
+from curate.methods.duplicates import distance_profile, near_duplicates
 from curate.space import Space
 
 

@@ -11,10 +11,11 @@ import numpy as np
 import pytest
 from neighbour_fixtures import reference_knn
 
-from curate.engine_approx import INDEX_SEED, RECALL_SAMPLE, approximate_kneighbors, sample_queries
-from curate.engine_plan import make_request, plan_for
 from curate.neighbours import engine_report, kneighbors, recording
-from curate.space import EngineSettings, Space
+from curate.neighbours._approx import INDEX_SEED, RECALL_SAMPLE, approximate_kneighbors, sample_queries
+from curate.neighbours._plan import make_request, plan_for
+from curate.settings import EngineSettings
+from curate.space import Space
 
 
 def _space(rows: int = 1500, backend: str = "approximate", target: float = 0.99,

@@ -12,7 +12,8 @@ from neighbour_fixtures import EXACT_BACKENDS, assert_same, reference_knn, tied_
 from sklearn.neighbors import NearestNeighbors
 
 from curate.neighbours import kneighbors
-from curate.space import EngineSettings, Space
+from curate.settings import EngineSettings
+from curate.space import Space
 
 CASES = [  # (k, exclude_self, subsets)
     (1, True, False),

@@ -15,7 +15,8 @@ from sklearn.neighbors import NearestNeighbors
 
 from curate.errors import UsageError
 from curate.neighbours import choose_backend, kneighbors, radius_neighbors
-from curate.space import EngineSettings, Space
+from curate.settings import EngineSettings
+from curate.space import Space
 
 
 def _space(rows: int, dims: int, backend: str = "auto", metric: str = "euclidean") -> Space:

@@ -17,9 +17,9 @@ from neighbour_fixtures import (
 )
 from scipy.spatial.distance import cdist
 
-from curate.engine_exact import exact_pairs
-from curate.engine_fast import fast_kneighbors, fast_radius
-from curate.engine_plan import Plan, make_request
+from curate.neighbours._exact import exact_pairs
+from curate.neighbours._fast import fast_kneighbors, fast_radius
+from curate.neighbours._plan import Plan, make_request
 
 PLANS = [
     Plan(block=7, tile=13, slab=50, threads=2, width=5),
@@ -83,7 +83,8 @@ def test_tiny_and_huge_values_stay_exact(backend: str, scale: float) -> None:
     # 1e-30 underflows float32 products (the bound's absolute term covers it); 1e20
     # overflows float32 squares, so the engine says so and answers in float64.
     from curate.neighbours import choose_backend, kneighbors
-    from curate.space import EngineSettings, Space
+    from curate.settings import EngineSettings
+    from curate.space import Space
 
     matrix = tied_matrix(seed=26, rows=400) * scale
     space = Space.from_matrix(matrix, "euclidean", EngineSettings(backend, 1))

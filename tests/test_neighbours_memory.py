@@ -18,7 +18,8 @@ import numpy as np
 import pytest
 
 from curate.neighbours import kneighbors
-from curate.space import EngineSettings, Space
+from curate.settings import EngineSettings
+from curate.space import Space
 
 ROWS, COLS, K = 8000, 16, 3
 

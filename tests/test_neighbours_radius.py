@@ -12,7 +12,8 @@ from neighbour_fixtures import EXACT_BACKENDS, assert_same_lists, reference_radi
 
 from curate.errors import UsageError
 from curate.neighbours import radius_neighbors
-from curate.space import EngineSettings, Space
+from curate.settings import EngineSettings
+from curate.space import Space
 
 
 @pytest.mark.parametrize("metric", ["euclidean", "manhattan"])

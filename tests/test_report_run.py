@@ -13,9 +13,9 @@ from pathlib import Path
 import pytest
 from report_fixtures import Page, check_images, keyed_numbers_match
 
-from curate import demo_data
 from curate.api import run
-from curate.report import CAUTIONS
+from curate.demo import data as demo_data
+from curate.report.html import CAUTIONS
 
 SCHEMA = Path(__file__).resolve().parents[1] / "schemas" / "readings.py"
 SECTIONS = {"headline", "flow", "classes", "projection", "distances", "cautions"}

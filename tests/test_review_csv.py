@@ -15,7 +15,7 @@ import pytest
 from review_runs import make_run, wine_table
 
 from curate.cli import main
-from curate.review import review_table, write_review
+from curate.io.review import review_table, write_review
 
 
 @pytest.fixture

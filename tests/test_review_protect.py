@@ -18,7 +18,7 @@ from review_runs import audit_of, kept_of, make_run, wine_table
 
 from curate.cli import main
 from curate.errors import UsageError
-from curate.review import protected_ids
+from curate.io.review import protected_ids
 
 
 def write(path: Path, text: str) -> Path:

@@ -19,9 +19,10 @@ from sklearn.datasets import load_wine
 from sklearn.impute import SimpleImputer
 from sklearn.preprocessing import MinMaxScaler, OneHotEncoder, OrdinalEncoder, RobustScaler, StandardScaler
 
-from curate.errors import InputError, UsageError
-from curate.mixed import unseen_overlap
-from curate.space import ConstantColumnWarning, Space, SpaceSettings, build_space, fit_space
+from curate.errors import ConstantColumnWarning, InputError, UsageError
+from curate.settings import SpaceSettings
+from curate.space import Space, build_space, fit_space
+from curate.space.columns import unseen_overlap
 
 KINDS = {"a": "float", "b": "int", "c": "category", "d": "string"}
 
@@ -176,7 +177,7 @@ def test_unseen_point_is_at_distance_one_from_every_level(levels):
 
 
 def test_two_different_unseen_values_share_one_point():
-    """Documented limitation (curate.mixed): the embedding's size is fixed by the fit
+    """Documented limitation (curate.space.columns): the embedding's size is fixed by the fit
     rows, so two values neither of them seen are at overlap distance 0."""
     frame = pl.DataFrame({"g": ["p", "q", "r", "s"]})
     space = build_space(frame, {"g": "category"}, SpaceSettings(), [0, 1, 2, 3],

@@ -9,7 +9,8 @@ from scipy.spatial.distance import cdist
 from sklearn.datasets import load_wine
 from sklearn.preprocessing import MinMaxScaler
 
-from curate.space import SpaceSettings, build_space
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 
 def test_heom_on_numeric_columns_is_euclidean_distance_after_range_scaling():

@@ -14,7 +14,8 @@ from scipy.spatial.distance import cdist
 
 from curate.errors import UsageError
 from curate.neighbours import kneighbors
-from curate.space import SpaceSettings, build_space
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 KINDS = {"temp": "float", "count": "int", "colour": "category", "shape": "string"}
 NOMINAL = [False, False, True, True]

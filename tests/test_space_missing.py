@@ -16,8 +16,9 @@ from scipy.spatial.distance import cdist
 from sklearn.impute import SimpleImputer
 from sklearn.preprocessing import MinMaxScaler, OneHotEncoder
 
-from curate.errors import InputError
-from curate.space import ConstantColumnWarning, SpaceSettings, build_space
+from curate.errors import ConstantColumnWarning, InputError
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 KINDS = {"a": "float", "b": "int", "c": "category"}
 

@@ -16,7 +16,8 @@ import polars as pl
 from mixed_definitions import hvdm, hvdm_table
 
 from curate.neighbours import kneighbors
-from curate.space import SpaceSettings, build_space
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 FEATURES = ["island", "bill_length_mm", "bill_depth_mm", "flipper_length_mm",
             "body_mass_g", "sex"]

@@ -13,7 +13,8 @@ import polars as pl
 from imblearn.metrics.pairwise import ValueDifferenceMetric
 from sklearn.preprocessing import OrdinalEncoder
 
-from curate.space import SpaceSettings, build_space
+from curate.settings import SpaceSettings
+from curate.space import build_space
 
 
 def _docstring_example() -> tuple[np.ndarray, np.ndarray]:

@@ -15,7 +15,8 @@ from sklearn.datasets import load_wine
 from sklearn.feature_selection import mutual_info_classif
 
 from curate.errors import PipelineFileError
-from curate.space import WEIGHT_SEED, SpaceSettings, build_space
+from curate.settings import SpaceSettings
+from curate.space import WEIGHT_SEED, build_space
 
 
 def _wine_mixed() -> tuple[pl.DataFrame, dict[str, str], np.ndarray]:
