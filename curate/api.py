@@ -1,16 +1,21 @@
-"""The Python entry points: run a pipeline and get polars frames back."""
+"""The Python entry point: run a pipeline, get polars frames back, and write the run folder."""
 
 from __future__ import annotations
 
+import json
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
-from curate.pipeline import RunResult, execute, prepare
-from curate.runfolder import write_result
-from curate.spec import Spec, load_spec, spec_from_dict
+from curate.io.folder import write_run_folder
+from curate.pipeline.loop import execute
+from curate.pipeline.prepare import prepare
+from curate.pipeline.records import RunResult
+from curate.report.html import render_run
+from curate.settings import Spec
+from curate.spec import load_spec, spec_from_dict
 
-__all__ = ["run"]
+__all__ = ["run", "write_result"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
@@ -27,7 +32,7 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
-    (paths relative to ``base``) or a checked :class:`~curate.spec.Spec`.
+    (paths relative to ``base``) or a checked :class:`~curate.settings.Spec`.
     Nothing is written unless ``write`` is true or ``out`` is given.
 
     Examples
@@ -48,3 +53,22 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
         write_result(result, folder, spec.output.overwrite if overwrite is None else overwrite,
                      report=spec.output.report)
     return result
+
+
+def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
+    """Write kept, removed, audit, summary and report into ``folder`` atomically.
+
+    The files are those of :data:`curate.io.folder.RUN_FILES`.
+    """
+
+    def fill(tmp: Path) -> None:
+        result.kept.write_parquet(tmp / "kept.parquet")
+        result.removed.write_parquet(tmp / "removed.parquet")
+        result.audit.write_parquet(tmp / "audit.parquet")
+        if result.spared is not None:
+            result.spared.write_parquet(tmp / "protected.parquet")
+        (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, default=str) + "\n")
+        if report:
+            (tmp / "report.html").write_text(render_run(result), encoding="utf-8")
+
+    write_run_folder(folder, overwrite, fill)
