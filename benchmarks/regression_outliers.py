@@ -4,7 +4,7 @@ Not a speed benchmark: a measurement for the README. On scikit-learn's bundled
 diabetes set (442 rows, 10 columns) and palmerpenguins' body mass (342 rows
 with bill and flipper measurements), features range-normalised, a seeded share
 of targets is moved by 3 to 5 standard deviations
-(:func:`curate.regression_stats.inject_outliers`); each stage runs on the
+(:func:`curate.evaluation.regression_stats.inject_outliers`); each stage runs on the
 whole table and its removals are scored against the moved rows. Precision and
 recall are summed over seeds 0 to 4.
 
@@ -22,11 +22,12 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+
+from curate.evaluation.regression_stats import inject_outliers  # noqa: E402
+from curate.methods import REGRESSION_METHODS  # noqa: E402
 from curate.methods.base import Selection  # noqa: E402
-from curate.methods.for_regression import DISCRETIZED  # noqa: E402
 from curate.methods.regression import reg_enn, regression_hardness  # noqa: E402
-from curate.regression_stats import inject_outliers  # noqa: E402
-from curate.space import Space  # noqa: E402
+from curate.space.points import Space  # noqa: E402
 
 Stage = Callable[[Space, np.ndarray], Selection]
 STAGES: dict[str, Stage] = {
@@ -35,7 +36,7 @@ STAGES: dict[str, Stage] = {
                                                     alpha=2.0),
     "hardness (k 9, threshold 2)": lambda s, y: regression_hardness(
         s, y, removable=np.ones(s.n, bool), k=9, threshold=2.0),
-    "discretized (3 bins, enn k 9)": lambda s, y: DISCRETIZED.func(
+    "discretized (3 bins, enn k 9)": lambda s, y: REGRESSION_METHODS["discretized"].func(
         s, y, removable=np.ones(s.n, bool), bins=3, params={"k": 9}),
 }
 

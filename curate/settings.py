@@ -25,7 +25,8 @@ from curate.errors import PipelineFileError, UsageError
 
 __all__ = [
     "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "K_GRID", "LEARNED_WEIGHTS",
-    "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "ClusterSettings", "ColumnRule",
+    "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "TASKS", "ClusterSettings",
+    "ColumnRule",
     "Declared", "EngineSettings", "InputSettings", "OutputSettings", "Param", "RunSettings",
     "SpaceSettings", "Spec", "StageSettings", "check_params", "local_workers",
 ]
@@ -39,6 +40,7 @@ COLUMN_TYPES = ("float", "int", "category", "bool", "string")
 NOMINAL_KINDS = ("category", "string", "bool")
 ON_INVALID = ("stop", "quarantine")
 CLASS_CHOICES = ("all", "all-but-smallest")
+TASKS = ("auto", "classification", "regression")  # [input] task; auto reads the target column
 K_GRID = tuple(range(1, 26, 2))  # k values `curate evaluate` scores by default
 
 
@@ -245,11 +247,18 @@ class InputSettings:
     columns: tuple[ColumnRule, ...] = ()
     protect: tuple[Any, ...] = ()
     protect_file: Path | None = None
+    task: str = "auto"
+    unit: str = ""
 
 
 @dataclass(frozen=True)
 class StageSettings:
-    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits."""
+    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits.
+
+    ``given`` holds the parameters as the file wrote them, so that a method key
+    shared by both tasks is checked again, and its defaults filled, against the
+    task's own table once ``[input] task = "auto"`` has read the target.
+    """
 
     name: str
     method: str
@@ -257,6 +266,7 @@ class StageSettings:
     max_removed_share: float = 0.5
     classes: str | tuple[Any, ...] = "all"
     seed: int | None = None
+    given: Mapping[str, Any] | None = None
 
 
 @dataclass(frozen=True)

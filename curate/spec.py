@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from curate.errors import PipelineFileError, UsageError
-from curate.methods import METHODS
+from curate.methods import METHODS, REGRESSION_METHODS, method_for
 from curate.settings import (
     BACKENDS,
     CLASS_CHOICES,
@@ -23,6 +23,7 @@ from curate.settings import (
     MISSING_POLICIES,
     ON_INVALID,
     SCALES,
+    TASKS,
     ClusterSettings,
     ColumnRule,
     EngineSettings,
@@ -126,7 +127,7 @@ def _columns(where: _Where, data: Mapping[str, Any]) -> tuple[ColumnRule, ...]:
 
 def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
     keys = ("path", "label", "id", "ignore", "features", "schema", "on_invalid", "columns",
-            "protect", "protect_file")
+            "protect", "protect_file", "task", "unit")
     _known(where, "input", data, keys)
     for key in ("path", "label"):
         if key not in data:
@@ -145,6 +146,8 @@ def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
         columns=_columns(where, _get(where, "input", data, "columns", dict, {})),
         protect=tuple(_get(where, "input", data, "protect", list, [])),
         protect_file=(base / protect_file).resolve() if protect_file else None,
+        task=_get(where, "input", data, "task", str, "auto", TASKS),
+        unit=_get(where, "input", data, "unit", str, ""),
     )
 
 
@@ -195,22 +198,41 @@ def _classes(where: _Where, body: Mapping[str, Any], index: int) -> str | tuple[
     return "all"
 
 
-def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
+def _stage_params(where: _Where, key: str, given: dict[str, Any], task: str,
+                  index: int) -> dict[str, Any]:
+    """Check a stage's parameters against its method's table for the task (both, for "auto")."""
+    tables = {"classification": (METHODS,), "regression": (REGRESSION_METHODS,)}.get(
+        task, (METHODS, REGRESSION_METHODS))
+    infos = [table[key] for table in tables if key in table]
+    if not infos:
+        try:
+            method_for(key, task)
+        except UsageError as err:
+            _fail(where, "stages", "method", err.message, str(err.hint), index)
+    first: UsageError | None = None
+    for info in infos:
+        try:
+            return check_params(info, given)
+        except UsageError as err:
+            first = first or err
+            bad = next((k for k in given if info.param(k) is None
+                        or info.param(k).problem(given[k])), None)  # type: ignore[union-attr]
+            spot = where.at("stages", bad, index)
+    assert first is not None
+    raise PipelineFileError(f"{spot}: {first.message}", hint=first.hint)
+
+
+def _stage(where: _Where, body: Mapping[str, Any], index: int, task: str) -> StageSettings:
+    known = sorted(set(METHODS) | set(REGRESSION_METHODS))
     if "method" not in body:
-        _fail(where, "stages", None, "has no 'method'",
-              f"add method = one of: {', '.join(sorted(METHODS))}", index)
+        _fail(where, "stages", None, "has no 'method'", f"add method = one of: {', '.join(known)}",
+              index)
     key = body["method"]
-    if key not in METHODS:
+    if key not in METHODS and key not in REGRESSION_METHODS:
         _fail(where, "stages", "method", f"names an unknown method {key!r}",
-              f"use one of: {', '.join(sorted(METHODS))}", index)
-    info = METHODS[key]
+              f"use one of: {', '.join(known)}", index)
     given = {k: v for k, v in body.items() if k not in STAGE_KEYS}
-    try:
-        params = check_params(info, given)
-    except UsageError as err:
-        bad = next((k for k in given if info.param(k) is None or info.param(k).problem(given[k])), None)  # type: ignore[union-attr]
-        raise PipelineFileError(f"{where.at('stages', bad, index)}: {err.message}",
-                                hint=err.hint) from None
+    params = _stage_params(where, key, given, task, index)
     share = _get(where, "stages", body, "max_removed_share", float, 0.5, index=index)
     if not 0.0 <= share <= 1.0:
         _fail(where, "stages", "max_removed_share", f"got {share!r}",
@@ -218,7 +240,7 @@ def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
     seed = _get(where, "stages", body, "seed", int, None, index=index)
     return StageSettings(name=_get(where, "stages", body, "name", str, f"{index + 1}: {key}", index=index),
                          method=key, params=params, max_removed_share=share,
-                         classes=_classes(where, body, index), seed=seed)
+                         classes=_classes(where, body, index), seed=seed, given=given)
 
 
 def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:
@@ -291,10 +313,11 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
     output = dict(data.get("output", {}))
     _known(where, "output", output, ("folder", "overwrite", "scores", "report"))
     cluster = _cluster(where, dict(data.get("cluster", {})))
+    settings = _input(where, dict(data["input"]), base)
     return Spec(
-        input=_input(where, dict(data["input"]), base),
+        input=settings,
         space=_space(where, dict(data.get("space", {}))),
-        stages=tuple(_stage(where, dict(body), i) for i, body in enumerate(stages)),
+        stages=tuple(_stage(where, dict(body), i, settings.task) for i, body in enumerate(stages)),
         output=OutputSettings(
             folder=(base / _get(where, "output", output, "folder", str, "runs/latest")).resolve(),
             overwrite=_get(where, "output", output, "overwrite", bool, False),

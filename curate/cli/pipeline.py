@@ -72,17 +72,23 @@ def cmd_check(args: argparse.Namespace) -> int:
     print(f"{spec.source}: pipeline file and input are valid: {prep.frame.height} rows, "
           f"{int((~prep.valid).sum())} would be quarantined, {len(prep.features)} features, "
           f"{len(spec.stages)} stages")
+    print(f"task: {prep.task.task} ({prep.task.reason})")
     return 0
 
 
 def cmd_distances(args: argparse.Namespace) -> int:
     """Handler of ``curate distances``."""
+    import numpy as np
+
     from curate.cli.render import distances_text
     from curate.methods.duplicates import distance_profile
     from curate.pipeline.prepare import prepare
 
     prep = prepare(load_with_options(args))
-    profile = distance_profile(prep.space, prep.space_labels, radii=args.radius)
+    # A numeric target has no classes: every row then counts as the same label.
+    labels = prep.space_labels if prep.task.task == "classification" else \
+        np.zeros(prep.space.n, dtype=np.int64)
+    profile = distance_profile(prep.space, labels, radii=args.radius)
     print(json.dumps(profile, indent=2) if args.json else distances_text(profile))
     return 0
 

@@ -15,7 +15,7 @@ import numpy as np
 
 from curate.io.diff import RunDiff
 from curate.methods.base import MethodInfo
-from curate.report.html import over_limit_notes
+from curate.report.parts import over_limit_notes
 
 __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "methods_text",
            "review_text", "summary_text"]
@@ -23,7 +23,9 @@ __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "m
 
 def summary_text(summary: dict[str, Any], out: Path) -> str:
     """A run's summary in a few lines: rows in, kept, removed, and each stage."""
-    lines = [f"{summary['rows_in']} rows in, {summary['rows_kept']} kept, "
+    task = summary.get("task", {})
+    lines = [f"task: {task.get('task', 'classification')} ({task.get('reason', 'the default')})",
+             f"{summary['rows_in']} rows in, {summary['rows_kept']} kept, "
              f"{summary['rows_removed']} removed ({summary['rows_quarantined']} quarantined)"]
     for st in summary["stages"]:
         reasons = ", ".join(f"{k} {v}" for k, v in st["by_reason"].items()) or "nothing"
@@ -111,8 +113,35 @@ def _detection_text(title: str, block: Mapping[str, Any]) -> list[str]:
     return lines
 
 
+# Per task: the plan's words, the baseline (words, key, format), the score columns
+# (header, key, width, digits) and the difference column (key, width).
+_LAYOUTS: dict[str, tuple[str, tuple[str, str, str], tuple[tuple[str, str, int, int], ...],
+                          tuple[str, int], str]] = {
+    "classification": (
+        "stratified {folds}-fold cross-validation", ("majority-class baseline",
+                                                     "baseline_accuracy", ".3f"),
+        (("accuracy", "accuracy", 9, 3), ("sd", "accuracy_std", 7, 3),
+         ("bal.acc", "balanced_accuracy", 9, 3), ("macroF1", "macro_f1", 9, 3)),
+        ("accuracy_difference", 8), "best k"),
+    "regression": (
+        "{folds}-fold cross-validation stratified by target quantiles",
+        ("training-mean baseline RMSE", "baseline_rmse", ".4g"),
+        (("RMSE", "rmse", 11, 4), ("sd", "rmse_std", 9, 3), ("MAE", "mae", 11, 4),
+         ("R2", "r2", 8, 3)),
+        ("rmse_difference", 10), "best k by RMSE"),
+}
+
+
+def _injected_title(n: Mapping[str, Any]) -> str:
+    if n.get("kind") == "outliers":
+        low, high = n["shift_sds"]
+        return (f"injected outliers ({n['rate']:.1%} of training targets moved by {low:g} to "
+                f"{high:g} standard deviations, {n['moved']:,} over all folds):")
+    return f"injected noise ({n['rate']:.1%} of training labels, {n['flipped']:,} flips over all folds):"
+
+
 def evaluation_text(e: Mapping[str, Any]) -> str:
-    """The evaluation as a plain-text table for the terminal.
+    """The evaluation as a plain-text table for the terminal, laid out for its task.
 
     Examples
     --------
@@ -122,29 +151,29 @@ def evaluation_text(e: Mapping[str, Any]) -> str:
     ...     "results": [], "noise": None, "truth": None}).splitlines()[0])
     stratified 2-fold cross-validation x 1 repeat(s), seed 0, 10 rows; test folds never curated
     """
-    lines = [f"stratified {e['folds']}-fold cross-validation x {e['repeats']} repeat(s), seed "
+    plan, (words, key, form), columns, (diff, width), best = _LAYOUTS[e.get("task", "classification")]
+    lines = [f"{plan.format(folds=e['folds'])} x {e['repeats']} repeat(s), seed "
              f"{e['seed']}, {e['rows']:,} rows; test folds never curated",
-             f"majority-class baseline {e['baseline_accuracy']:.3f}; training rows kept "
+             f"{words} {e[key]:{form}}; training rows kept "
              f"{e['kept_share']:.3f}; ms per 1,000 lookups of {e['lookup']['k']} neighbours: "
              f"full {e['lookup']['full_ms_per_1000']:.1f}, curated "
              f"{e['lookup']['curated_ms_per_1000']:.1f}", "",
-             f"{'model':<24}{'k':<5}{'curated':<9}{'accuracy':>9}{'sd':>7}{'bal.acc':>9}"
-             f"{'macroF1':>9}{'kept':>7}{'diff':>8}{'p':>8}"]
+             f"{'model':<24}{'k':<5}{'curated':<9}"
+             + "".join(f"{head:>{w}}" for head, _, w, _ in columns)
+             + f"{'kept':>7}{'diff':>{width}}{'p':>8}"]
     for r in e["results"]:
         name = str(r["model"]).rsplit(".", 1)[-1][:23]
         k = "-" if r["k"] is None else r["k"]
         lines.append(f"{name:<24}{_fixed(k, 5)}{_fixed(r['curated'], 9)}"
-                     f"{_fixed(r['accuracy'], 9)}{_fixed(r['accuracy_std'], 7)}"
-                     f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['macro_f1'], 9)}"
-                     f"{_fixed(r['kept_share'], 7, 2)}{_fixed(r.get('accuracy_difference'), 8, 3, True)}"
+                     + "".join(_fixed(r[m], w, d) for _, m, w, d in columns)
+                     + f"{_fixed(r['kept_share'], 7, 2)}{_fixed(r.get(diff), width, 3, True)}"
                      f"{_fixed(r.get('p_value'), 8)}")
     lines += [f"warning: {w}" for w in over_limit_notes(e)]
     if e["best_k"]:
-        lines.append(f"best k: {e['best_k'].get('uncurated')} without curation, "
+        lines.append(f"{best}: {e['best_k'].get('uncurated')} without curation, "
                      f"{e['best_k'].get('curated')} with curation")
     if e.get("noise"):
-        lines += ["", *_detection_text(f"injected noise ({e['noise']['rate']:.1%} of training labels, "
-                                       f"{e['noise']['flipped']:,} flips over all folds):", e["noise"])]
+        lines += ["", *_detection_text(_injected_title(e["noise"]), e["noise"])]
     if e.get("truth"):
         lines += ["", *_detection_text(f"known faults from {e['truth']['file']}:", e["truth"]),
                   "  recall of all stages by kind of fault: " + ", ".join(

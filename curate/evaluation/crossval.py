@@ -35,14 +35,15 @@ import polars as pl
 
 from curate.errors import InputError, UsageError
 from curate.evaluation import stats
+from curate.evaluation.curation import curate_fold
 from curate.evaluation.models import estimator, knn_votes, metrics, stack
+from curate.evaluation.regression import evaluate_regression
 from curate.evaluation.stats import KNN, FoldOutcome, Key
 from curate.io.folder import write_run_folder
 from curate.io.read import read_input
 from curate.pipeline.loop import execute
 from curate.pipeline.prepare import prepare
 from curate.pipeline.records import Prepared
-from curate.pipeline.stage import run_step
 from curate.report.html import render_run
 from curate.settings import K_GRID, Spec
 from curate.space.build import fit_space
@@ -81,31 +82,6 @@ def _fold_spaces(setup: _Setup, train: np.ndarray, test: np.ndarray,
     return fitted.space, fitted.transform(part_test, ids_test)
 
 
-def _curate(setup: _Setup, space: Space, labels: np.ndarray, ids: list[Any],
-            protected: np.ndarray) -> tuple[np.ndarray, list[np.ndarray], list[str]]:
-    """Run the stages on one fold's training rows, as a run would.
-
-    Returns the kept rows, each stage's removals and the stages that went over
-    their ``max_removed_share``. A run stops there; an evaluation only
-    measures, so it goes on and reports the breach.
-    """
-    spec = setup.prep.spec
-    active = np.arange(space.n)
-    removed: list[np.ndarray] = []
-    over: list[str] = []
-    for stage in spec.stages:
-        stage_labels = labels[active]
-        step = run_step(stage, space.subset(active), stage_labels,
-                        np.flatnonzero(np.isin(active, protected)), spec.run.seed,
-                        [ids[a] for a in active])
-        if step.over_limit is not None:
-            over.append(stage.name)
-        sel = step.selection
-        removed.append(active[sel.removed])
-        active = active[sel.kept]
-    return np.sort(active), removed, over
-
-
 def _fold(setup: _Setup, repeat: int, number: int, train: np.ndarray,
           test: np.ndarray) -> FoldOutcome:
     """Curate one fold's training part and score every model on its untouched test part."""
@@ -116,8 +92,9 @@ def _fold(setup: _Setup, repeat: int, number: int, train: np.ndarray,
         y_train, flipped = stats.flip_labels(y_train, setup.noise, [setup.seed, repeat, number],
                                              setup.towards)
     space_train, space_test = _fold_spaces(setup, train, test, y_train)
-    kept, removed, over = _curate(setup, space_train, y_train, [setup.ids[i] for i in train],
-                                  np.flatnonzero(np.isin(train, setup.prep.protected)))
+    kept, removed, over = curate_fold(setup.prep, space_train, y_train,
+                                      [setup.ids[i] for i in train],
+                                      np.flatnonzero(np.isin(train, setup.prep.protected)))
     stacked = stack(space_train, space_test)
     scores: dict[Key, dict[str, float]] = {}
     clipped: set[Key] = set()
@@ -231,6 +208,17 @@ def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,
     """Evaluate an already prepared pipeline; see :func:`evaluate` for the parameters."""
     from sklearn.model_selection import StratifiedKFold
 
+    if prep.task.task == "regression":
+        if noise_towards is not None:
+            raise UsageError(f"--noise-towards {noise_towards!r} names a class, but this table's "
+                             "target is a number (regression)",
+                             hint="leave it out: --inject-noise moves targets by several "
+                                  "standard deviations")
+        return evaluate_regression(prep, folds=folds, repeats=repeats, ks=ks, model=model,
+                                   model_params=model_params, inject_noise=inject_noise,
+                                   faults=None if truth is None else read_faults(truth, prep),
+                                   truth=None if truth is None else str(truth), seed=seed,
+                                   progress=progress)
     _check_request(prep, folds, repeats, ks, inject_noise, noise_towards)
     params = dict(model_params or {})
     if model is not None:
@@ -256,7 +244,9 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
              model_params: Mapping[str, Any] | None = None, inject_noise: float = 0.0,
              noise_towards: Any = None, truth: str | Path | None = None, seed: int = 0,
              progress: Callable[[str], None] | None = None) -> dict[str, Any]:
-    """Measure, without leakage, what the pipeline's curation does to classification.
+    """Measure, without leakage, what the pipeline's curation does to classification
+    (or, for a regression table, to regression errors: see
+    :func:`curate.evaluation.regression.evaluate_regression`).
 
     Parameters
     ----------

@@ -1,5 +1,6 @@
 """The models an evaluation scores: curate's own k-nearest-neighbour vote, and any
-scikit-learn classifier named by import path, fitted on the embedded matrix."""
+scikit-learn classifier (or, for a regression table, regressor) named by import path,
+fitted on the embedded matrix."""
 
 from __future__ import annotations
 
@@ -18,22 +19,41 @@ from curate.space.points import Space
 __all__ = ["estimator", "knn_votes", "metrics", "stack"]
 
 
-def estimator(path: str, params: Mapping[str, Any], seed: int) -> Any:
-    """Build the named classifier; seed it when it takes a random_state and none was given."""
+def estimator(path: str, params: Mapping[str, Any], seed: int, regression: bool = False) -> Any:
+    """Build the named classifier (``regression``: regressor); seed it when it takes a
+    random_state and none was given.
+
+    Examples
+    --------
+    >>> estimator("sklearn.tree.DecisionTreeRegressor", {"max_depth": 2}, 7, True).random_state
+    7
+    >>> estimator("sklearn.tree.DecisionTreeClassifier", {}, 0, regression=True)
+    Traceback (most recent call last):
+    ...
+    curate.errors.UsageError: --model 'sklearn.tree.DecisionTreeClassifier' is not an importable \
+regressor with fit and predict
+      hint: give a full import path such as sklearn.ensemble.RandomForestRegressor
+    """
+    from sklearn.base import is_regressor
+
+    kind, example = ("regressor", "RandomForestRegressor") if regression else \
+        ("classifier", "RandomForestClassifier")
     module, _, name = path.rpartition(".")
     try:
         cls = getattr(importlib.import_module(module), name) if module else None
     except (ImportError, AttributeError):
         cls = None
+    wrong = UsageError(f"--model {path!r} is not an importable {kind} with fit and predict",
+                       hint=f"give a full import path such as sklearn.ensemble.{example}")
     if cls is None or not (hasattr(cls, "fit") and hasattr(cls, "predict")):
-        raise UsageError(f"--model {path!r} is not an importable classifier with fit and predict",
-                         hint="give a full import path such as "
-                              "sklearn.ensemble.RandomForestClassifier")
+        raise wrong
     try:
         estimator = cls(**params)
     except TypeError as err:
         raise UsageError(f"--model {path}: bad parameters {dict(params)}: {err}",
                          hint="use the parameter names of the class's constructor") from None
+    if regression and not is_regressor(estimator):
+        raise wrong
     if hasattr(estimator, "get_params") and "random_state" in estimator.get_params() \
             and "random_state" not in params:
         estimator.set_params(random_state=seed)

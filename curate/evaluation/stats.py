@@ -214,10 +214,14 @@ class FoldOutcome:
         return self._mask(np.concatenate(self.removed) if self.removed else np.zeros(0))
 
 
-def fold_record(folds: Sequence[FoldOutcome], key: Key, ratio: float) -> dict[str, Any]:
+def fold_record(folds: Sequence[FoldOutcome], key: Key, ratio: float,
+                metrics: Sequence[str] = METRICS, main: str = "accuracy") -> dict[str, Any]:
     """One results record: means over folds and, for a curated key, the paired test.
 
     ``ratio`` is ``n_test / n_train`` for :func:`corrected_resampled_ttest`.
+    ``metrics`` are averaged; ``main`` also gets its standard deviation
+    (``{main}_std``), its per-fold values (``fold_{main}``) and, for a curated
+    key, the paired test and ``{main}_difference`` (curated minus uncurated).
 
     Examples
     --------
@@ -232,18 +236,18 @@ def fold_record(folds: Sequence[FoldOutcome], key: Key, ratio: float) -> dict[st
     name, k, curated = key
     per = [f.scores[key] for f in folds]
     record: dict[str, Any] = {"model": name, "k": k, "curated": curated}
-    record.update({m: float(np.mean([p[m] for p in per])) for m in METRICS})
-    record["accuracy_std"] = mean_std([p["accuracy"] for p in per])[1]
+    record.update({m: float(np.mean([p[m] for p in per])) for m in metrics})
+    record[f"{main}_std"] = mean_std([p[main] for p in per])[1]
     record["kept_share"] = float(np.mean([f.kept / f.n_train for f in folds])) if curated else 1.0
     if name == KNN:
         record["lookup_ms_per_1000"] = float(np.mean([f.lookup_ms[curated] for f in folds]))
         record["k_clipped_folds"] = sum(key in f.clipped for f in folds)
-    record["fold_accuracy"] = [p["accuracy"] for p in per]
+    record[f"fold_{main}"] = [p[main] for p in per]
     if curated:
-        plain = [f.scores[(name, k, False)]["accuracy"] for f in folds]
-        t, p = corrected_resampled_ttest(record["fold_accuracy"], plain, ratio)
-        record.update(accuracy_difference=record["accuracy"] - float(np.mean(plain)),
-                      t_statistic=t, p_value=p)
+        plain = [f.scores[(name, k, False)][main] for f in folds]
+        t, p = corrected_resampled_ttest(record[f"fold_{main}"], plain, ratio)
+        record.update({f"{main}_difference": record[main] - float(np.mean(plain)),
+                       "t_statistic": t, "p_value": p})
     return record
 
 
@@ -299,20 +303,25 @@ def recall_by_fault(folds: Sequence[FoldOutcome]) -> dict[str, dict[str, Any]]:
             for kind, (n, hit) in sorted(found.items())}
 
 
-def best_k(records: Sequence[dict[str, Any]]) -> dict[str, int]:
-    """The kNN k of highest mean accuracy, without and with curation (ties: smaller k).
+def best_k(records: Sequence[dict[str, Any]], metric: str = "accuracy",
+           lower_is_better: bool = False) -> dict[str, int]:
+    """The kNN k of best mean ``metric``, without and with curation (ties: smaller k).
 
     Examples
     --------
     >>> best_k([{"model": KNN, "k": 1, "curated": False, "accuracy": 0.8},
     ...         {"model": KNN, "k": 3, "curated": False, "accuracy": 0.8}])
     {'uncurated': 1}
+    >>> best_k([{"model": KNN, "k": 1, "curated": False, "rmse": 2.0},
+    ...         {"model": KNN, "k": 5, "curated": False, "rmse": 1.5}], "rmse", True)
+    {'uncurated': 5}
     """
+    sign = -1.0 if lower_is_better else 1.0
     best = {}
     for curated, label in ((False, "uncurated"), (True, "curated")):
         rows = [r for r in records if r["model"] == KNN and r["curated"] == curated]
         if rows:
-            best[label] = max(rows, key=lambda r: (r["accuracy"], -r["k"]))["k"]
+            best[label] = max(rows, key=lambda r: (sign * r[metric], -r["k"]))["k"]
     return best
 
 

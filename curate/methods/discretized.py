@@ -20,9 +20,10 @@ from typing import Any
 import numpy as np
 
 from curate.errors import UsageError
-from curate.methods.base import MethodInfo, Param, Selection, check_params
-from curate.methods.targets import check_targets, quantile_bins, value_writer
-from curate.space import Space
+from curate.methods._targets import check_targets, quantile_bins, value_writer
+from curate.methods.base import MethodInfo, Selection
+from curate.settings import Param, check_params
+from curate.space.points import Space
 
 __all__ = ["bin_names", "discretized", "make_discretized"]
 

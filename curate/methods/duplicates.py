@@ -22,6 +22,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
 from curate.errors import UsageError
+from curate.methods._copies import equal_groups
 from curate.methods._neighbourhood import nearest_enemy
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, radius_neighbors
@@ -30,15 +31,6 @@ from curate.space.points import Space
 
 __all__ = ["CONFLICTING", "EXACT", "NEAR", "conflicting_duplicates", "distance_profile",
            "exact_duplicates", "near_duplicates"]
-
-
-def _groups(codes: np.ndarray) -> list[np.ndarray]:
-    """Positions of each group with two or more rows, in first-seen order, ascending inside."""
-    order = np.argsort(codes, kind="stable")
-    sorted_codes = codes[order]
-    cuts = np.flatnonzero(np.diff(sorted_codes)) + 1
-    parts = [p for p in np.split(order, cuts) if len(p) > 1]
-    return sorted(parts, key=lambda p: int(p[0]))
 
 
 def exact_duplicates(space: Space, labels: np.ndarray, *, removable: np.ndarray,
@@ -59,7 +51,7 @@ def exact_duplicates(space: Space, labels: np.ndarray, *, removable: np.ndarray,
     ident = space.identity_codes()
     key = ident * (int(label_codes.max(initial=0)) + 1) + label_codes.reshape(-1)
     out = SelectionBuilder(space.n)
-    for group in _groups(key):
+    for group in equal_groups(key):
         fixed = group[~removable[group]]
         keeper = int(fixed[0]) if len(fixed) else int(group[0])
         for pos in group:
@@ -115,7 +107,7 @@ def conflicting_duplicates(space: Space, labels: np.ndarray, *, removable: np.nd
     ([1, 3], ['conflict-outvoted', 'conflict-repeat'])
     """
     ident = space.identity_codes()
-    conflicted = [g for g in _groups(ident) if len(np.unique(labels[g])) > 1]
+    conflicted = [g for g in equal_groups(ident) if len(np.unique(labels[g])) > 1]
     out = SelectionBuilder(space.n)
     if policy != "report":
         for group in conflicted:

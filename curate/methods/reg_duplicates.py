@@ -18,10 +18,11 @@ from typing import Any
 import numpy as np
 
 from curate.errors import UsageError
-from curate.methods.base import MethodInfo, Param, Removals, Selection
-from curate.methods.duplicates import _groups
-from curate.methods.targets import check_targets, target_spread, value_writer
-from curate.space import Space
+from curate.methods._copies import equal_groups
+from curate.methods._targets import check_targets, target_spread, value_writer
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder
+from curate.settings import Param
+from curate.space.points import Space
 
 __all__ = ["REG_CONFLICTING", "regression_conflicts"]
 
@@ -65,8 +66,8 @@ tolerance 1.0 h apart); the row with the target nearest their median 12.0 h is k
     y = check_targets(targets, where="conflicting-duplicates")
     limit = _tolerance(y, tolerance, relative_tolerance)
     write = value_writer(y, unit)
-    conflicted = [g for g in _groups(space.identity_codes()) if np.ptp(y[g]) > limit]
-    out = Removals(space.n)
+    conflicted = [g for g in equal_groups(space.identity_codes()) if np.ptp(y[g]) > limit]
+    out = SelectionBuilder(space.n)
     for group in conflicted if policy != "report" else []:
         keeper = _median_row(group, y) if policy == "keep-median" else -1
         said = (f"same feature values as {len(group) - 1} other rows, targets from "

@@ -30,16 +30,17 @@ from collections.abc import Callable
 
 import numpy as np
 
-from curate.methods.base import MethodInfo, Param, Removals, Selection, require_rows
-from curate.methods.targets import (
+from curate.methods._targets import (
     check_targets,
     neighbour_mean_std,
     scaled_residuals,
     target_spread,
     value_writer,
 )
-from curate.neighbours import kneighbors
-from curate.space import Space
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder
+from curate.neighbours.search import kneighbors, require_neighbours
+from curate.settings import Param
+from curate.space.points import Space
 
 __all__ = ["REG_CNN", "REG_ENN", "REG_HARDNESS", "reg_cnn", "reg_enn", "regression_hardness"]
 
@@ -82,12 +83,12 @@ def reg_enn(space: Space, targets: np.ndarray, *, removable: np.ndarray, seed: i
 (their standard deviation 0.5 h), more than alpha = 3"
     """
     y = check_targets(targets, where="reg-enn")
-    require_rows(space.n, k, "reg-enn")
+    require_neighbours(k, space.n, where="reg-enn: ")
     dist, nbr = kneighbors(space, k)
     mean, sd = neighbour_mean_std(y, nbr)
     off = np.abs(y - mean)
     write = value_writer(y, unit)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     for i in np.flatnonzero((off > alpha * sd) & removable):
         out.add(int(i), "target-off",
                 _deviation(write, y[i], mean[i], sd[i], k) + f", more than alpha = {alpha:g}",
@@ -153,7 +154,7 @@ def reg_cnn(space: Space, targets: np.ndarray, *, removable: np.ndarray, seed: i
     ([0, 3], [0, 0, 3, 3])
     """
     y = check_targets(targets, where="reg-cnn")
-    require_rows(space.n, k, "reg-cnn")
+    require_neighbours(k, space.n, where="reg-cnn: ")
     dist, nbr = kneighbors(space, min(space.n - 1, k + LIST_EXTRA))
     _, sd = neighbour_mean_std(y, nbr[:, :k])
     limit = alpha * sd
@@ -163,7 +164,7 @@ def reg_cnn(space: Space, targets: np.ndarray, *, removable: np.ndarray, seed: i
     for i in fixed if len(fixed) else presented[:1]:
         store.add(int(i))
     write = value_writer(y, unit)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     for i in presented:
         if store.kept[i]:
             continue
@@ -200,13 +201,13 @@ def regression_hardness(space: Space, targets: np.ndarray, *, removable: np.ndar
     ([2], [1.155, 1.155, 2.309, 1.155])
     """
     y = check_targets(targets, where="hardness")
-    require_rows(space.n, k, "hardness")
+    require_neighbours(k, space.n, where="hardness: ")
     dist, nbr = kneighbors(space, k)
     mean, sd = neighbour_mean_std(y, nbr)
     spread = target_spread(y)
     scores = scaled_residuals(y, mean, spread)
     write = value_writer(y, unit)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     if threshold is not None:
         for i in np.flatnonzero((scores >= threshold) & removable):
             out.add(int(i), "hard",

@@ -16,7 +16,7 @@ import numpy as np
 import polars as pl
 
 from curate.cluster.session import cluster_session
-from curate.methods import METHODS
+from curate.methods import method_for
 from curate.methods.base import Selection
 from curate.neighbours.backends import choose_backend
 from curate.pipeline.audit import AuditLog
@@ -31,10 +31,11 @@ __all__ = ["check_stages", "execute"]
 
 def check_stages(prep: Prepared) -> None:
     """Check every stage's parameters against the rows that the first stage would get."""
+    task = prep.task.task
     for stage in prep.spec.stages:
-        removable = removable_rows(stage, prep.space_labels, prep.protected)
-        if METHODS[stage.method].uses_neighbours:
-            check_k(stage, prep.space_labels, removable)
+        removable = removable_rows(stage, prep.space_labels, prep.protected, task)
+        if method_for(stage.method, task).uses_neighbours:
+            check_k(stage, prep.space_labels, removable, task)
 
 
 def _quarantine(prep: Prepared, audit: AuditLog) -> None:
@@ -76,7 +77,8 @@ def _spared(prep: Prepared, spared: AuditLog, stage: StageSettings, active: np.n
     """Record which protected rows the stage would have removed, had they not been protected."""
     if len(protected) == 0:
         return 0
-    free = run_stage(stage, sub, labels, np.zeros(0, dtype=np.int64), prep.spec.run.seed)
+    free = run_stage(stage, sub, labels, np.zeros(0, dtype=np.int64), prep.spec.run.seed,
+                     prep.task.task)
     return len(_record(prep, spared, stage, active, free, only=protected))
 
 
@@ -92,6 +94,7 @@ def execute(prep: Prepared, progress: Callable[[str], None] | None = None) -> Ru
 
 def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResult:
     say = progress or (lambda _msg: None)
+    say(f"task: {prep.task.task} ({prep.task.reason})")
     started = time.perf_counter()
     labels = prep.space_labels
     audit = AuditLog(prep.ids, prep.labels)
@@ -109,7 +112,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         stage_labels = labels[active]
         protected = np.flatnonzero(np.isin(active, prep.protected))
         step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
-                        [ids_valid[a] for a in active])
+                        [ids_valid[a] for a in active], prep.task.task)
         if step.over_limit is not None:
             raise step.over_limit
         sel = step.selection
@@ -140,7 +143,7 @@ def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any
     itself (on a seeded sample of its queries against the exact engine), so it
     describes the neighbours the stages actually used; nothing is searched again.
     """
-    if not any(METHODS[s.method].uses_neighbours for s in prep.spec.stages):
+    if not any(method_for(s.method, prep.task.task).uses_neighbours for s in prep.spec.stages):
         return {}
     backend, reason = choose_backend(prep.space)
     engines = [o.selection.info["engine"] for o in outcomes if "engine" in o.selection.info]

@@ -1,6 +1,15 @@
-"""Read, identify and validate the input and build its space once, before any stage runs."""
+"""Read, identify and validate the input and build its space once, before any stage runs.
+
+The task is settled here too: ``[input] task`` or, for ``"auto"``, the target
+column (:func:`curate.io.task.detect_task`); a stage whose method exists for
+regression only makes an "auto" numeric target a regression one. A regression
+target must be numbers that vary (else an InputError, exit code 3), and every
+stage's parameters are checked again against its method's table for the task.
+"""
 
 from __future__ import annotations
+
+from dataclasses import replace
 
 import numpy as np
 import polars as pl
@@ -9,10 +18,14 @@ from curate.errors import InputError, UsageError, first_ids
 from curate.io import schema as schema_mod
 from curate.io.read import read_input, row_ids
 from curate.io.review import protected_ids
-from curate.methods import METHODS
+from curate.io.task import TaskChoice, detect_task
+from curate.methods import METHODS, method_for
+from curate.methods._targets import check_targets, quantile_bins
 from curate.pipeline.records import Prepared
-from curate.settings import Spec
+from curate.settings import Spec, check_params
 from curate.space.build import build_space
+
+SPACE_BINS = 10  # quantile bins of a numeric target that HVDM and learned weights read as classes
 
 __all__ = ["prepare"]
 
@@ -23,7 +36,7 @@ def _labels_of_valid(frame: pl.DataFrame, label: str) -> np.ndarray:
 
 
 def _check_classes(spec: Spec, labels: np.ndarray) -> None:
-    needs_two = [s for s in spec.stages if METHODS[s.method].compares_classes]
+    needs_two = [s for s in spec.stages if method_for(s.method, "classification").compares_classes]
     distinct = np.unique(labels)
     if needs_two and len(distinct) < 2:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} has one class "
@@ -47,6 +60,34 @@ def _protected_positions(spec: Spec, ids: pl.Series) -> np.ndarray:
     return np.flatnonzero(mask)
 
 
+def choose_task(spec: Spec, target: pl.Series) -> TaskChoice:
+    """The run's task and why: as set, read from the target, or asked for by a stage's method."""
+    choice = detect_task(target, spec.input.task, column=spec.input.label)
+    only = next((s for s in spec.stages if s.method not in METHODS), None)
+    if spec.input.task == "auto" and choice.task == "classification" and only is not None:
+        check_targets(target.drop_nulls(), where=f"{spec.input.path}, column "
+                      f"{spec.input.label!r} (stage {only.name!r} uses {only.method})")
+        return TaskChoice("regression", f"stage {only.name!r} uses {only.method}, a method for "
+                                        f"numeric targets ({choice.reason})")
+    return choice
+
+
+def resolve_stages(spec: Spec, task: str) -> Spec:
+    """Every stage's method for the task, its parameters checked and defaults filled from it.
+
+    ``[input] unit`` fills the ``unit`` parameter of the methods that write target values.
+    """
+    stages = []
+    for stage in spec.stages:
+        info = method_for(stage.method, task, f"{spec.source}: stage {stage.name!r}")
+        given = dict(stage.given if stage.given is not None else stage.params)
+        if spec.input.unit and info.param("unit") is not None:
+            given.setdefault("unit", spec.input.unit)
+        params = check_params(info, given, where=f"{spec.source}: stage {stage.name!r}")
+        stages.append(replace(stage, params=params))
+    return replace(spec, stages=tuple(stages))
+
+
 def prepare(spec: Spec) -> Prepared:
     """Read, identify and validate the input and build its space, without selecting anything."""
     frame = read_input(spec.input.path)
@@ -62,13 +103,20 @@ def prepare(spec: Spec) -> Prepared:
     checked = validation.frame
     features = schema_mod.feature_columns(checked, spec.input)
     kinds = schema_mod.feature_kinds(checked, features, spec.input.columns)
-    labels = _labels_of_valid(checked, spec.input.label)
-    _check_classes(spec, labels)
     valid_ids = ids.filter(pl.Series(validation.valid)).to_list()
-    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=labels)
+    task = choose_task(spec, checked[spec.input.label])
+    spec = resolve_stages(spec, task.task)
+    if task.task == "regression":
+        labels = check_targets(checked[spec.input.label], ids=valid_ids,
+                               where=f"{spec.input.path}, column {spec.input.label!r}")
+        classes = quantile_bins(labels, SPACE_BINS)[0].astype(str)
+    else:
+        labels = classes = _labels_of_valid(checked, spec.input.label)
+        _check_classes(spec, labels)
+    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=classes)
     protected_input = _protected_positions(spec, ids)
     local = np.full(frame.height, -1, dtype=np.int64)
     local[np.flatnonzero(validation.valid)] = np.arange(int(validation.valid.sum()))
     return Prepared(spec, frame, ids, frame[spec.input.label], validation.valid,
                     validation.failures, features, kinds, space, labels,
-                    local[protected_input][local[protected_input] >= 0], checked)
+                    local[protected_input][local[protected_input] >= 0], checked, task)

@@ -8,6 +8,7 @@ from typing import Any
 import numpy as np
 import polars as pl
 
+from curate.io.task import TaskChoice
 from curate.methods.base import Selection
 from curate.settings import Spec, StageSettings
 from curate.space.points import Space
@@ -17,7 +18,11 @@ __all__ = ["Prepared", "RunResult", "StageOutcome"]
 
 @dataclass
 class Prepared:
-    """The checked input, ready for stages: the table, ids, valid rows and their space."""
+    """The checked input, ready for stages: the table, ids, valid rows and their space.
+
+    ``space_labels`` holds the target of each valid row: class labels, or for a
+    regression ``task`` the numeric targets as float64.
+    """
 
     spec: Spec
     frame: pl.DataFrame
@@ -31,6 +36,7 @@ class Prepared:
     space_labels: np.ndarray
     protected: np.ndarray
     checked: pl.DataFrame
+    task: TaskChoice = TaskChoice("classification", "the default")
 
     @property
     def valid_positions(self) -> np.ndarray:

@@ -5,6 +5,11 @@ cluster when the space names one), records which neighbour backends it used,
 checks that kept and removed rows partition its input and reports, without
 raising, whether it went over its ``max_removed_share``: a run stops there, an
 evaluation counts it and goes on.
+
+``task`` picks the method's table (:func:`curate.methods.method_for`). On a
+regression table ``labels`` are the numeric targets: there are no classes, so
+``classes`` must be "all", ``k`` is checked against the rows only, and
+``max_removed_share`` bounds the share of all the rows the stage gets.
 """
 
 from __future__ import annotations
@@ -16,7 +21,7 @@ import numpy as np
 
 from curate.cluster.stage import run_on_cluster
 from curate.errors import SafetyLimitError, UsageError, first_ids
-from curate.methods import METHODS
+from curate.methods import method_for
 from curate.methods.base import Selection
 from curate.neighbours.calls import recording, summarise_calls
 from curate.neighbours.search import require_neighbours
@@ -27,8 +32,14 @@ __all__ = ["Step", "check_k", "removable_rows", "run_stage", "run_step", "safety
            "verify_partition"]
 
 
-def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:
+def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray,
+                   task: str = "classification") -> np.ndarray:
     """Rows the stage may remove: of the classes it names, and not protected."""
+    if task == "regression" and stage.classes != "all":
+        raise UsageError(f"stage {stage.name!r}: classes = {stage.classes!r} picks classes, but "
+                         "this table's target is a number (regression)",
+                         hint="remove classes from the stage (every row may go), or protect "
+                              "rows with [input] protect")
     text = labels.astype(str)
     if stage.classes == "all":
         mask = np.ones(len(labels), dtype=bool)
@@ -47,16 +58,19 @@ def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarr
     return mask
 
 
-def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> None:
+def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray,
+            task: str = "classification") -> None:
     """Stop before the stage runs when its ``k`` does not fit the rows (and classes) it gets."""
     k = stage.params.get("k")
     if not isinstance(k, int):
         return
     require_neighbours(k, len(labels), where=f"stage {stage.name!r}: ")
+    if task == "regression":
+        return
     values, counts = np.unique(labels[removable].astype(str), return_counts=True)
     sizes = dict(zip(*np.unique(labels.astype(str), return_counts=True), strict=True))
     small = [str(v) for v in values if sizes[v] <= k]
-    if small and METHODS[stage.method].compares_classes:
+    if small and method_for(stage.method, task).compares_classes:
         raise UsageError(f"stage {stage.name!r}: k = {k} is not below the size of class "
                          f"{small[0]!r} ({sizes[small[0]]} rows), so its rows cannot outvote "
                          "their neighbours",
@@ -64,11 +78,30 @@ def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> 
                               "with classes = \"all-but-smallest\" or a list of classes")
 
 
+def _rows_breach(stage: StageSettings, total: int, removed_local: np.ndarray,
+                 ids: list[Any]) -> SafetyLimitError | None:
+    share = len(removed_local) / total
+    if share <= stage.max_removed_share:
+        return None
+    return SafetyLimitError(
+        f"stage {stage.name!r} ({stage.method}) would remove {len(removed_local)} of {total} "
+        f"rows ({share:.0%}), over its limit max_removed_share = {stage.max_removed_share}; "
+        f"{first_ids([ids[i] for i in removed_local])}",
+        hint="review why (a larger alpha or threshold removes less), or raise "
+             "max_removed_share for this stage if that share is expected (condensing stages "
+             "usually remove most rows)")
+
+
 def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
-                  ids: list[Any]) -> SafetyLimitError | None:
-    """The error a run stops with when the stage removes too much of a class, else None."""
+                  ids: list[Any], task: str = "classification") -> SafetyLimitError | None:
+    """The error a run stops with when the stage removes too much of a class, else None.
+
+    On a regression table the limit bounds the share of all the stage's rows.
+    """
     if stage.max_removed_share >= 1.0 or len(removed_local) == 0:
         return None
+    if task == "regression":
+        return _rows_breach(stage, len(labels), removed_local, ids)
     values, entering = np.unique(labels.astype(str), return_counts=True)
     leaving = dict(zip(*np.unique(labels[removed_local].astype(str), return_counts=True),
                        strict=True))
@@ -87,12 +120,12 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
 
 
 def run_stage(stage: StageSettings, space: Space, labels: np.ndarray, protected: np.ndarray,
-              seed: int) -> Selection:
+              seed: int, task: str = "classification") -> Selection:
     """Run one stage's method on ``space`` (rows still kept) and return its selection."""
-    info = METHODS[stage.method]
-    removable = removable_rows(stage, labels, protected)
+    info = method_for(stage.method, task, f"stage {stage.name!r}")
+    removable = removable_rows(stage, labels, protected, task)
     if info.uses_neighbours:
-        check_k(stage, labels, removable)
+        check_k(stage, labels, removable, task)
     stage_seed = stage.seed if stage.seed is not None else seed
     if space.engine.cluster_address is not None:
         return run_on_cluster(info, space, labels, removable=removable, seed=stage_seed,
@@ -117,7 +150,7 @@ class Step:
 
 
 def run_step(stage: StageSettings, space: Space, labels: np.ndarray, protected: np.ndarray,
-             seed: int, ids: list[Any]) -> Step:
+             seed: int, ids: list[Any], task: str = "classification") -> Step:
     """Run one stage on ``space`` (the rows still kept; ``ids`` theirs, for messages).
 
     Examples
@@ -131,8 +164,8 @@ def run_step(stage: StageSettings, space: Space, labels: np.ndarray, protected: 
     ([6], True)
     """
     with recording() as calls:
-        sel = run_stage(stage, space, labels, protected, seed)
+        sel = run_stage(stage, space, labels, protected, seed, task)
     if calls:
         sel.info["engine"] = summarise_calls(calls)
     verify_partition(sel, space.n, stage)
-    return Step(sel, safety_breach(stage, labels, sel.removed, ids))
+    return Step(sel, safety_breach(stage, labels, sel.removed, ids, task))

@@ -1,4 +1,10 @@
-"""summary.json: counts per stage, class and reason; timings; hashes; versions; seed."""
+"""summary.json: counts per stage, class and reason; timings; hashes; versions; seed.
+
+It says which task the run chose and why (``task``). A regression run has no
+classes: ``classes_in``, ``classes_kept`` and each stage's ``by_class_*`` are
+empty, and ``target`` describes the target before and after (count, mean,
+standard deviation, quartiles), each stage's ``target_removed`` the rows it took.
+"""
 
 from __future__ import annotations
 
@@ -12,6 +18,7 @@ import numpy as np
 import polars as pl
 
 from curate.io.read import file_sha256
+from curate.methods._targets import describe_target
 
 if TYPE_CHECKING:
     from curate.pipeline.records import Prepared, StageOutcome
@@ -63,6 +70,7 @@ def _jsonable(value: Any) -> Any:
 def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
     sel = out.selection
     ids = prep.ids
+    regression = prep.task.task == "regression"
     record: dict[str, Any] = {
         "name": out.stage.name,
         "method": out.stage.method,
@@ -73,11 +81,13 @@ def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
         "removed": len(sel.removed),
         "kept": len(sel.kept),
         "by_reason": dict(sorted(Counter(sel.reason).items())),
-        "by_class_in": _counts(out.labels_in),
-        "by_class_removed": _counts(out.labels_in[sel.removed]),
+        "by_class_in": {} if regression else _counts(out.labels_in),
+        "by_class_removed": {} if regression else _counts(out.labels_in[sel.removed]),
         "seconds": round(out.seconds, 4),
         "info": _jsonable(sel.info),
     }
+    if regression:
+        record["target_removed"] = describe_target(out.labels_in[sel.removed])
     if sel.groups:
         to_input = prep.valid_positions
         record["groups"] = [ids.gather(to_input[g]).to_list() for g in sel.groups[:1000]]
@@ -91,14 +101,18 @@ def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept: pl.DataFra
     spec = prep.spec
     label = spec.input.label
     quarantined = int((~prep.valid).sum())
-    return {
+    regression = prep.task.task == "regression"
+    summary: dict[str, Any] = {
         "rows_in": prep.frame.height,
         "rows_kept": kept.height,
         "rows_removed": removed.height,
         "rows_quarantined": quarantined,
         "by_reason": dict(sorted(Counter(audit["reason"].to_list()).items())),
-        "classes_in": _counts(prep.frame[label].cast(pl.String).fill_null("<missing>").to_numpy()),
-        "classes_kept": _counts(kept[label].cast(pl.String).fill_null("<missing>").to_numpy()),
+        "classes_in": {} if regression else _counts(
+            prep.frame[label].cast(pl.String).fill_null("<missing>").to_numpy()),
+        "classes_kept": {} if regression else _counts(
+            kept[label].cast(pl.String).fill_null("<missing>").to_numpy()),
+        "task": prep.task.as_dict(),
         "stages": [_stage_record(prep, out) for out in outcomes],
         "input": str(spec.input.path),
         "input_sha256": file_sha256(spec.input.path),
@@ -117,3 +131,9 @@ def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept: pl.DataFra
         "seconds": round(seconds, 4),
         "versions": versions(),
     }
+    if regression:
+        kept_rows = prep.ids.gather(prep.valid_positions).is_in(kept["row_id"].implode()).to_numpy()
+        summary["target"] = {"unit": spec.input.unit,
+                             "before": describe_target(prep.space_labels),
+                             "after": describe_target(prep.space_labels[kept_rows])}
+    return summary

@@ -18,8 +18,8 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-__all__ = ["accuracy_plot", "class_balance_plot", "distance_plot", "flow_plot",
-           "projection_plot"]
+__all__ = ["class_balance_plot", "distance_plot", "flow_plot", "projection_plot",
+           "score_plot"]
 
 _KEPT = "#9aa5b1"
 _COLOURS = ("#d62728", "#1f77b4", "#ff7f0e", "#2ca02c", "#9467bd", "#8c564b", "#e377c2",
@@ -142,31 +142,32 @@ def distance_plot(distances: np.ndarray, radius: float | None = None) -> str:
     return _uri(fig)
 
 
-def accuracy_plot(results: Sequence[Mapping[str, Any]], baseline: float | None = None) -> str:
-    """Mean accuracy (with one standard deviation) against k, with and without curation.
+def score_plot(results: Sequence[Mapping[str, Any]], metric: str, label: str,
+               baseline: float | None = None, baseline_label: str = "baseline") -> str:
+    """Mean ``metric`` (with one standard deviation) against k, with and without curation.
 
-    ``results`` are the evaluation records; only those with a ``k`` are drawn.
-    ``baseline``, the majority-class accuracy, is drawn as a dotted line.
+    ``results`` are the evaluation records; only those with a ``k`` are drawn,
+    with ``{metric}_std`` as the error bar. ``baseline`` is a dotted line.
 
     Examples
     --------
-    >>> accuracy_plot([{"k": 1, "curated": False, "accuracy": 0.8, "accuracy_std": 0.1},
-    ...                {"k": 1, "curated": True, "accuracy": 0.9, "accuracy_std": 0.1}])[:5]
+    >>> score_plot([{"k": 1, "curated": False, "rmse": 2.0, "rmse_std": 0.1},
+    ...             {"k": 1, "curated": True, "rmse": 1.8, "rmse_std": 0.1}], "rmse", "RMSE")[:5]
     'data:'
     """
     fig = _figure(7.0, 3.4)
     ax = fig.add_subplot()
-    for curated, colour, label in ((False, _KEPT, "without curation"),
-                                   (True, _COLOURS[1], "with curation")):
+    for curated, colour, name in ((False, _KEPT, "without curation"),
+                                  (True, _COLOURS[1], "with curation")):
         rows = sorted((r for r in results if r.get("k") is not None and r["curated"] == curated),
                       key=lambda r: r["k"])
         if rows:
-            ax.errorbar([r["k"] for r in rows], [r["accuracy"] for r in rows],
-                        yerr=[r["accuracy_std"] for r in rows], marker="o", capsize=3,
-                        color=colour, label=label)
+            ax.errorbar([r["k"] for r in rows], [r[metric] for r in rows],
+                        yerr=[r[f"{metric}_std"] for r in rows], marker="o", capsize=3,
+                        color=colour, label=name)
     if baseline is not None:
-        ax.axhline(baseline, color="#555555", linestyle=":", label="majority-class baseline")
-    ax.set_xlabel("k (neighbours that vote)")
-    ax.set_ylabel("accuracy on untouched test folds")
+        ax.axhline(baseline, color="#555555", linestyle=":", label=baseline_label)
+    ax.set_xlabel("k (neighbours)")
+    ax.set_ylabel(label)
     ax.legend(frameon=False)
     return _uri(fig)

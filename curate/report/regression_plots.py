@@ -1,4 +1,4 @@
-"""The report's pictures for numeric targets: the target before and after, residuals, RMSE by k.
+"""The report's pictures for numeric targets: the target before and after, and residuals.
 
 Like :mod:`curate.plots`, each function takes plain numbers and returns a
 ``data:image/png;base64,...`` URI drawn off screen.
@@ -6,14 +6,11 @@ Like :mod:`curate.plots`, each function takes plain numbers and returns a
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
-from typing import Any
-
 import numpy as np
 
-from curate.plots import _COLOURS, _KEPT, _colour, _figure, _uri
+from curate.report.plots import _COLOURS, _KEPT, _colour, _figure, _uri
 
-__all__ = ["residual_plot", "rmse_plot", "target_plot"]
+__all__ = ["residual_plot", "target_plot"]
 
 
 def target_plot(before: np.ndarray, after: np.ndarray, unit: str = "") -> str:
@@ -65,34 +62,4 @@ def residual_plot(predicted: np.ndarray, residual: np.ndarray, reasons: np.ndarr
     ax.set_xlabel("mean target of the row's nearest neighbours" + suffix)
     ax.set_ylabel("target minus that mean" + suffix)
     ax.legend(fontsize="small", frameon=False, markerscale=1.5)
-    return _uri(fig)
-
-
-def rmse_plot(results: Sequence[Mapping[str, Any]], baseline: float | None = None) -> str:
-    """Mean RMSE (with one standard deviation) against k, with and without curation.
-
-    ``results`` are the evaluation records; only those with a ``k`` are drawn.
-    ``baseline``, the RMSE of predicting the training mean, is a dotted line.
-
-    Examples
-    --------
-    >>> rmse_plot([{"k": 1, "curated": False, "rmse": 2.0, "rmse_std": 0.1},
-    ...            {"k": 1, "curated": True, "rmse": 1.8, "rmse_std": 0.1}], 3.0)[:5]
-    'data:'
-    """
-    fig = _figure(7.0, 3.4)
-    ax = fig.add_subplot()
-    for curated, colour, label in ((False, _KEPT, "without curation"),
-                                   (True, _COLOURS[1], "with curation")):
-        rows = sorted((r for r in results if r.get("k") is not None and r["curated"] == curated),
-                      key=lambda r: r["k"])
-        if rows:
-            ax.errorbar([r["k"] for r in rows], [r["rmse"] for r in rows],
-                        yerr=[r["rmse_std"] for r in rows], marker="o", capsize=3,
-                        color=colour, label=label)
-    if baseline is not None:
-        ax.axhline(baseline, color="#555555", linestyle=":", label="training-mean baseline")
-    ax.set_xlabel("k (neighbours averaged)")
-    ax.set_ylabel("RMSE on untouched test folds")
-    ax.legend(frameon=False)
     return _uri(fig)

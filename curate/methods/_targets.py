@@ -114,11 +114,13 @@ def describe_target(values: np.ndarray) -> dict[str, float | int | None]:
     """
     y = np.asarray(values, dtype=np.float64)
     names = ("min", "q25", "median", "q75", "max")
-    if len(y) == 0:
-        return {"rows": 0, "mean": None, "sd": None} | dict.fromkeys(names)
-    quartiles = np.quantile(y, (0.0, 0.25, 0.5, 0.75, 1.0))
-    return {"rows": int(len(y)), "mean": float(y.mean()), "sd": float(y.std())} | {
-        name: float(q) for name, q in zip(names, quartiles, strict=True)}
+    out: dict[str, float | int | None] = {"rows": int(len(y)), "mean": None, "sd": None}
+    out.update(dict.fromkeys(names))
+    if len(y):
+        out.update(mean=float(y.mean()), sd=float(y.std()))
+        out.update(zip(names, (float(q) for q in np.quantile(y, (0.0, 0.25, 0.5, 0.75, 1.0))),
+                       strict=True))
+    return out
 
 
 def scaled_residuals(targets: np.ndarray, predicted: np.ndarray,

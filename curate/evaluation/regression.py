@@ -18,17 +18,18 @@ rows and on the curated ones, so that the comparison is paired.
   the paired test is the corrected resampled t-test on the per-fold RMSE.
 * ``outliers``: a seeded share of each fold's training targets is moved by
   several standard deviations before curation
-  (:func:`curate.regression_stats.inject_outliers`), and each stage's
+  (:func:`curate.evaluation.regression_stats.inject_outliers`), and each stage's
   removals are scored against the moved rows.
 
-The caller supplies two functions: how a fold's rows become spaces
-(:func:`table_fold_spaces` fits them on a table) and how a fold's training
-rows are curated (:func:`stage_curation` runs method functions in order).
+:func:`evaluate_regression` evaluates a prepared pipeline (``curate evaluate``
+calls it for a regression table); :func:`cross_validate_regression` is the core,
+given two functions: how a fold's rows become spaces (:func:`table_fold_spaces`
+fits them on a table) and how a fold's training rows are curated (the run's
+stage step, or :func:`stage_curation` for method functions on arrays).
 """
 
 from __future__ import annotations
 
-import importlib
 import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -37,25 +38,28 @@ from typing import Any
 import numpy as np
 import polars as pl
 
-from curate import stats
 from curate.errors import UsageError
-from curate.evaluate import K_GRID, _stack
-from curate.methods.base import MethodInfo
-from curate.methods.targets import quantile_bins, regression_folds
-from curate.neighbours import kneighbors
-from curate.regression_stats import (
+from curate.evaluation import stats
+from curate.evaluation.curation import curate_fold
+from curate.evaluation.models import estimator, stack
+from curate.evaluation.regression_stats import (
     OUTLIER_SDS,
-    best_k_rmse,
     inject_outliers,
     mean_baseline_rmse,
     regression_metrics,
     regression_record,
 )
-from curate.space import EngineSettings, Space, SpaceSettings, fit_space
-from curate.stats import KNN, FoldOutcome, Key
+from curate.evaluation.stats import KNN, FoldOutcome, Key
+from curate.methods._targets import quantile_bins, regression_folds
+from curate.methods.base import MethodInfo
+from curate.neighbours.search import kneighbors
+from curate.pipeline.records import Prepared
+from curate.settings import K_GRID, EngineSettings, SpaceSettings
+from curate.space.build import fit_space
+from curate.space.points import Space
 
 __all__ = ["Curation", "FoldSpaces", "RegressionPlan", "cross_validate_regression",
-           "knn_regression", "regressor", "stage_curation", "table_fold_spaces"]
+           "evaluate_regression", "knn_regression", "stage_curation", "table_fold_spaces"]
 
 TEST_NAME = ("corrected resampled t-test (Nadeau and Bengio 2003), two-sided, on per-fold RMSE, "
              "curated minus uncurated")
@@ -78,40 +82,6 @@ class RegressionPlan:
     model_params: Mapping[str, Any] = field(default_factory=dict)
     outliers: float = 0.0
     seed: int = 0
-
-
-def regressor(path: str, params: Mapping[str, Any], seed: int) -> Any:
-    """Build the named scikit-learn regressor; seed it when it takes a random_state and none was given.
-
-    Examples
-    --------
-    >>> regressor("sklearn.tree.DecisionTreeRegressor", {"max_depth": 2}, 7).random_state
-    7
-    >>> regressor("sklearn.tree.DecisionTreeClassifier", {}, 0)
-    Traceback (most recent call last):
-    ...
-    curate.errors.UsageError: --model 'sklearn.tree.DecisionTreeClassifier' is not an importable regressor
-      hint: give a full import path such as sklearn.ensemble.RandomForestRegressor
-    """
-    from sklearn.base import is_regressor
-
-    module, _, name = path.rpartition(".")
-    try:
-        cls = getattr(importlib.import_module(module), name) if module else None
-    except (ImportError, AttributeError):
-        cls = None
-    try:
-        estimator = cls(**params) if cls is not None else None
-    except TypeError as err:
-        raise UsageError(f"--model {path}: bad parameters {dict(params)}: {err}",
-                         hint="use the parameter names of the class's constructor") from None
-    if estimator is None or not is_regressor(estimator):
-        raise UsageError(f"--model {path!r} is not an importable regressor",
-                         hint="give a full import path such as "
-                              "sklearn.ensemble.RandomForestRegressor")
-    if "random_state" in estimator.get_params() and "random_state" not in params:
-        estimator.set_params(random_state=seed)
-    return estimator
 
 
 def knn_regression(stacked: Space, n_train: int, reference: np.ndarray, y_train: np.ndarray,
@@ -195,8 +165,8 @@ def _check(plan: RegressionPlan, n: int) -> None:
     if not 0.0 <= plan.outliers < 1.0:
         raise UsageError(f"--inject-noise {plan.outliers} is not a share from 0 to below 1",
                          hint="give a share such as 0.05 (5% of training targets moved)")
-    if plan.model is not None:
-        regressor(plan.model, plan.model_params, plan.seed)  # a bad name fails before any fold
+    if plan.model is not None:  # a bad name fails before any fold
+        estimator(plan.model, plan.model_params, plan.seed, regression=True)
 
 
 def _fold(plan: RegressionPlan, targets: np.ndarray, spaces: FoldSpaces, curate: Curation,
@@ -209,7 +179,7 @@ def _fold(plan: RegressionPlan, targets: np.ndarray, spaces: FoldSpaces, curate:
         y_train, moved = inject_outliers(y_train, plan.outliers, [plan.seed, repeat, number])
     space_train, space_test = spaces(train, test, y_train)
     kept, removed, over = curate(space_train, y_train, train)
-    stacked = _stack(space_train, space_test)
+    stacked = stack(space_train, space_test)
     scores: dict[Key, dict[str, float]] = {}
     clipped: set[Key] = set()
     lookup: dict[bool, float] = {}
@@ -220,7 +190,7 @@ def _fold(plan: RegressionPlan, targets: np.ndarray, spaces: FoldSpaces, curate:
             scores[(KNN, k, curated)] = regression_metrics(y_test, values)
         clipped |= {(KNN, k, curated) for k in short}
         if plan.model is not None:
-            est = regressor(plan.model, plan.model_params, plan.seed)
+            est = estimator(plan.model, plan.model_params, plan.seed, regression=True)
             est.fit(space_train.matrix[reference], y_train[reference])
             scores[(plan.model, None, curated)] = regression_metrics(
                 y_test, est.predict(space_test.matrix))
@@ -243,7 +213,8 @@ def _summary(plan: RegressionPlan, folds: list[FoldOutcome], names: Sequence[str
         "lookup": {"k": max(plan.ks),
                    "full_ms_per_1000": float(np.mean([f.lookup_ms[False] for f in folds])),
                    "curated_ms_per_1000": float(np.mean([f.lookup_ms[True] for f in folds]))},
-        "best_k": best_k_rmse(records), "results": records, "noise": None, "truth": None,
+        "best_k": stats.best_k(records, "rmse", lower_is_better=True), "results": records,
+        "noise": None, "truth": None,
         "over_limit": {name: sum(name in f.over_limit for f in folds) for name in names
                        if any(name in f.over_limit for f in folds)},
     }
@@ -313,3 +284,36 @@ def cross_validate_regression(targets: np.ndarray, spaces: FoldSpaces, curate: C
     result = _summary(plan, outcomes, stage_names, len(y), faults)
     result["seconds"] = round(time.perf_counter() - started, 3)
     return stats.json_safe(result)
+
+
+def evaluate_regression(prep: Prepared, *, folds: int = 10, repeats: int = 1,
+                        ks: Sequence[int] = K_GRID, model: str | None = None,
+                        model_params: Mapping[str, Any] | None = None, inject_noise: float = 0.0,
+                        faults: np.ndarray | None = None, truth: str | None = None,
+                        seed: int = 0, progress: Callable[[str], None] | None = None
+                        ) -> dict[str, Any]:
+    """Evaluate a prepared pipeline whose task is regression (see :func:`curate.evaluate`).
+
+    ``inject_noise`` is the share of each fold's training targets moved as
+    outliers; ``faults`` the known fault kind of each valid row, read from the
+    ``truth`` file by the caller.
+    """
+    spec = prep.spec
+    ids = prep.ids.gather(prep.valid_positions).to_list()
+    spaces = table_fold_spaces(prep.checked, prep.kinds, spec.space, spec.run.engine, ids)
+
+    def curate(space: Space, y: np.ndarray, train: np.ndarray
+               ) -> tuple[np.ndarray, list[np.ndarray], list[str]]:
+        return curate_fold(prep, space, y, [ids[i] for i in train],
+                           np.flatnonzero(np.isin(train, prep.protected)))
+
+    plan = RegressionPlan(folds, repeats, tuple(ks), model, dict(model_params or {}),
+                          inject_noise, seed)
+    result = cross_validate_regression(prep.space_labels, spaces, curate,
+                                       stage_names=[s.name for s in spec.stages], plan=plan,
+                                       faults=faults, progress=progress)
+    if result["truth"] is not None:
+        result["truth"]["file"] = truth
+    return {"pipeline": spec.source, "input": str(spec.input.path),
+            "rows_quarantined": int((~prep.valid).sum()), "task_reason": prep.task.reason,
+            "unit": spec.input.unit, **result}

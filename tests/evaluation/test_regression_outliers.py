@@ -21,11 +21,12 @@ from sklearn.model_selection import StratifiedKFold
 from sklearn.neighbors import NearestNeighbors
 from sklearn.preprocessing import MinMaxScaler
 
-from curate.evaluate_regression import RegressionPlan, cross_validate_regression, stage_curation
-from curate.evaluate_regression import table_fold_spaces as fold_spaces
+from curate.evaluation.regression import RegressionPlan, cross_validate_regression, stage_curation
+from curate.evaluation.regression import table_fold_spaces as fold_spaces
+from curate.evaluation.regression_stats import inject_outliers
 from curate.methods.regression import REG_ENN, reg_enn, regression_hardness
-from curate.regression_stats import inject_outliers
-from curate.space import EngineSettings, Space, SpaceSettings
+from curate.settings import EngineSettings, SpaceSettings
+from curate.space import Space
 
 FOLDS, SEED, SHARE = 4, 2, 0.05
 

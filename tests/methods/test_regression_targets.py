@@ -16,7 +16,7 @@ from sklearn.model_selection import StratifiedKFold, cross_val_predict
 from sklearn.neighbors import KNeighborsRegressor
 
 from curate.errors import InputError
-from curate.methods.targets import (
+from curate.methods._targets import (
     check_targets,
     out_of_fold_residuals,
     quantile_bins,

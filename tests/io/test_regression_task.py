@@ -15,7 +15,7 @@ import pytest
 from palmerpenguins import load_penguins
 from sklearn.datasets import load_diabetes, load_digits, load_iris, load_linnerud, load_wine
 
-from curate.task import MIN_DISTINCT, ROWS_PER_VALUE, detect_task
+from curate.io.task import MIN_DISTINCT, ROWS_PER_VALUE, detect_task
 
 
 @pytest.mark.parametrize("loader", [load_diabetes, lambda: load_linnerud(as_frame=False)])

@@ -14,10 +14,10 @@ from typing import Any
 
 import numpy as np
 
-from curate.methods.targets import target_spread
-from curate.stats import KNN, FoldOutcome, Key, corrected_resampled_ttest, mean_std
+from curate.evaluation.stats import FoldOutcome, Key, fold_record
+from curate.methods._targets import target_spread
 
-__all__ = ["OUTLIER_SDS", "REGRESSION_METRICS", "best_k_rmse", "inject_outliers",
+__all__ = ["OUTLIER_SDS", "REGRESSION_METRICS", "inject_outliers",
            "mean_baseline_rmse", "regression_metrics", "regression_record"]
 
 REGRESSION_METRICS = ("rmse", "mae", "r2")
@@ -100,36 +100,4 @@ def regression_record(folds: Sequence[FoldOutcome], key: Key, ratio: float) -> d
     >>> round(r["rmse"], 3), round(r["rmse_difference"], 3), r["kept_share"]
     (0.9, -0.2, 0.6666666666666666)
     """
-    name, k, curated = key
-    per = [f.scores[key] for f in folds]
-    record: dict[str, Any] = {"model": name, "k": k, "curated": curated}
-    record.update({m: float(np.mean([p[m] for p in per])) for m in REGRESSION_METRICS})
-    record["rmse_std"] = mean_std([p["rmse"] for p in per])[1]
-    record["kept_share"] = float(np.mean([f.kept / f.n_train for f in folds])) if curated else 1.0
-    if name == KNN:
-        record["lookup_ms_per_1000"] = float(np.mean([f.lookup_ms[curated] for f in folds]))
-        record["k_clipped_folds"] = sum(key in f.clipped for f in folds)
-    record["fold_rmse"] = [p["rmse"] for p in per]
-    if curated:
-        plain = [f.scores[(name, k, False)]["rmse"] for f in folds]
-        t, p = corrected_resampled_ttest(record["fold_rmse"], plain, ratio)
-        record.update(rmse_difference=record["rmse"] - float(np.mean(plain)),
-                      t_statistic=t, p_value=p)
-    return record
-
-
-def best_k_rmse(records: Sequence[dict[str, Any]]) -> dict[str, int]:
-    """The kNN k of lowest mean RMSE, without and with curation (ties: smaller k).
-
-    Examples
-    --------
-    >>> best_k_rmse([{"model": KNN, "k": 1, "curated": False, "rmse": 2.0},
-    ...              {"model": KNN, "k": 5, "curated": False, "rmse": 1.5}])
-    {'uncurated': 5}
-    """
-    best = {}
-    for curated, label in ((False, "uncurated"), (True, "curated")):
-        rows = [r for r in records if r["model"] == KNN and r["curated"] == curated]
-        if rows:
-            best[label] = min(rows, key=lambda r: (r["rmse"], r["k"]))["k"]
-    return best
+    return fold_record(folds, key, ratio, REGRESSION_METRICS, "rmse")

@@ -19,9 +19,11 @@ from sklearn.datasets import load_diabetes
 from sklearn.preprocessing import MinMaxScaler
 
 from curate.errors import UsageError
-from curate.methods.base import check_params
-from curate.methods.for_regression import DISCRETIZED
+from curate.methods import REGRESSION_METHODS
+from curate.settings import check_params
 from curate.space import Space
+
+DISCRETIZED = REGRESSION_METHODS["discretized"]
 
 
 @pytest.fixture(scope="module")

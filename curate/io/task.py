@@ -22,9 +22,10 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["MIN_DISTINCT", "ROWS_PER_VALUE", "TASKS", "TaskChoice", "detect_task"]
+from curate.settings import TASKS
 
-TASKS = ("auto", "classification", "regression")
+__all__ = ["MIN_DISTINCT", "ROWS_PER_VALUE", "TaskChoice", "detect_task"]
+
 MIN_DISTINCT = 10  # up to this many distinct whole numbers are read as class codes
 ROWS_PER_VALUE = 20  # fewer rows per distinct value than this reads as a quantity
 

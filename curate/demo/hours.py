@@ -28,7 +28,7 @@ from types import MappingProxyType
 import numpy as np
 import polars as pl
 
-from curate import demo_data
+from curate.demo import data as demo_data
 from curate.errors import UsageError
 
 __all__ = ["FAULT_SHARES", "FEATURES", "TARGET", "UNIT", "generate", "write"]

@@ -24,14 +24,14 @@ from sklearn.preprocessing import MinMaxScaler
 from sklearn.tree import DecisionTreeRegressor
 
 from curate.errors import UsageError
-from curate.evaluate_regression import (
+from curate.evaluation.regression import (
     RegressionPlan,
     cross_validate_regression,
     stage_curation,
     table_fold_spaces,
 )
 from curate.methods.regression import REG_ENN
-from curate.space import EngineSettings, SpaceSettings
+from curate.settings import EngineSettings, SpaceSettings
 
 FOLDS, SEED, TREE = 5, 3, "sklearn.tree.DecisionTreeRegressor"
 
