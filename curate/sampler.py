@@ -12,6 +12,12 @@ it requires a ``sampling_strategy`` that means "how many rows per class", a
 question curate's methods do not answer. The sampler is a plain scikit-learn
 estimator with the method ``fit_resample``, which is all the imbalanced-learn
 pipeline looks for.
+
+A continuous ``y`` makes it a regression step (``task="auto"``, as in the
+pipeline file): the regression methods (``reg-enn``, ``reg-cnn``,
+``discretized``, and the regression forms of ``exact-duplicates``,
+``conflicting-duplicates`` and ``hardness``) run on the numeric targets, so the
+sampler sits in an ``imblearn.pipeline.Pipeline`` before any regressor.
 """
 
 from __future__ import annotations
@@ -25,9 +31,11 @@ from sklearn.utils import check_consistent_length
 from sklearn.utils.multiclass import check_classification_targets, type_of_target
 from sklearn.utils.validation import validate_data
 
-from curate.errors import UsageError
+from curate.errors import InputError, UsageError
 from curate.io.schema import feature_kinds
-from curate.methods import METHODS
+from curate.io.task import detect_task
+from curate.methods import METHODS, REGRESSION_METHODS, method_for
+from curate.methods._targets import check_targets, quantile_bins
 from curate.methods.base import MethodInfo
 from curate.pipeline.audit import AuditLog
 from curate.pipeline.stage import run_step
@@ -54,7 +62,11 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         "stop" (default: missing values are an error), "impute" or "far".
     classes : "all", "all-but-smallest" or list of labels
         Which labels' rows the method may remove; rows of other labels still
-        count as neighbours.
+        count as neighbours. A regression step takes "all" only.
+    task : "auto", "classification" or "regression"
+        ``auto`` reads ``y`` as the pipeline file's ``[input] task = "auto"``
+        reads the target column; a method that exists for one task only
+        settles it.
     seed : int
         Seed of the method's randomness (presentation orders, tie draws).
     **method_params
@@ -72,6 +84,8 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         the input position.
     scores_ : dict of str to ndarray
         Per-row scores the method computed (kDN hardness), one per input row.
+    task_ : str
+        The task the step ran as, "classification" or "regression".
     n_features_in_, feature_names_in_
         As in scikit-learn.
 
@@ -95,11 +109,19 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
     ([0, 1, 2, 3, 5, 6, 7, 8], ['knn-disagrees'])
     >>> sampler.get_params()["params"]
     {'k': 3}
+
+    With a continuous ``y`` it curates a regression table:
+
+    >>> y = np.array([10.0, 11.0, 12.0, 40.0, 13.0, 14.0, 15.0, 16.0, 17.0])
+    >>> sampler = Sampler(method="reg-enn", k=2).fit(np.arange(9.0).reshape(-1, 1), y)
+    >>> sampler.task_, sampler.sample_indices_.tolist()
+    ('regression', [0, 1, 2, 4, 5, 6, 7, 8])
     """
 
     def __init__(self, method: str = "enn", params: dict[str, Any] | None = None, *,
                  scale: str = "range", distance: str = "euclidean", missing: str = "stop",
-                 classes: str | list[Any] = "all", seed: int = 0, **method_params: Any) -> None:
+                 classes: str | list[Any] = "all", seed: int = 0, task: str = "auto",
+                 **method_params: Any) -> None:
         self.method = method
         # scikit-learn keeps constructor arguments untouched; the one exception,
         # keyword convenience, lands in ``params`` so that get_params sees it.
@@ -109,6 +131,7 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         self.missing = missing
         self.classes = classes
         self.seed = seed
+        self.task = task
 
     def set_params(self, **values: Any) -> Sampler:
         """Set parameters; names of the method's own parameters go into ``params``.
@@ -122,7 +145,8 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         extra = {k: v for k, v in values.items() if k not in own and "__" not in k}
         super().set_params(**{k: v for k, v in values.items() if k not in extra})
         if extra:
-            info = METHODS.get(self.method) if isinstance(self.method, str) else None
+            info = METHODS.get(self.method, REGRESSION_METHODS.get(self.method)) \
+                if isinstance(self.method, str) else None
             unknown = [k for k in extra if info is not None and info.param(k) is None]
             if unknown:
                 raise ValueError(f"Invalid parameter {unknown[0]!r} for estimator {self!r}: "
@@ -156,12 +180,14 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         >>> kept.height, labels
         (5, ['a', 'a', 'a', 'b', 'b'])
         """
-        info, params = self._checked_settings()
         if y is None:
             raise ValueError(f"{type(self).__name__} requires y to be passed, but the target y "
                              "is None")
+        values = _values(y)
+        task = self._task(values)
+        info, params = self._checked_settings(task)
         frame, kinds = self._features(X)
-        labels = _labels(y)
+        labels = _labels(values) if task == "classification" else _targets(values)
         check_consistent_length(frame, labels)
         if info.uses_neighbours and frame.height < 2:
             raise ValueError(f"method {info.key!r} compares rows with their neighbours, but got "
@@ -169,22 +195,35 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         if info.compares_classes and len(np.unique(labels)) < 2:
             raise ValueError(f"method {info.key!r} compares classes, but y has one class only "
                              f"({labels[0]!r}); give two or more classes")
+        classes = labels if task == "classification" else \
+            quantile_bins(labels, 10)[0].astype(str)
         space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance, self.missing),
-                            list(range(frame.height)), labels=labels)
+                            list(range(frame.height)), labels=classes)
         stage = StageSettings(name=info.key, method=info.key, params=params,
                               max_removed_share=1.0, classes=self._classes())
         sel = run_step(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed,
-                       list(range(frame.height))).selection
+                       list(range(frame.height)), task).selection
+        self.task_ = task
         self.sample_indices_ = np.sort(sel.kept)
         self.audit_ = _audit(info, sel, labels)
         self.scores_ = dict(sel.scores)
         return _take(X, self.sample_indices_), _take(y, self.sample_indices_)
 
-    def _checked_settings(self) -> tuple[MethodInfo, dict[str, Any]]:
-        if self.method not in METHODS:
-            raise UsageError(f"Sampler: unknown method {self.method!r}",
-                             hint=f"use one of: {', '.join(sorted(METHODS))}")
-        info = METHODS[self.method]
+    def _task(self, values: np.ndarray) -> str:
+        """The task this fit runs as: as set, by the method, or read from ``y``."""
+        if self.task not in ("auto", "classification", "regression"):
+            raise UsageError(f"Sampler: task = {self.task!r} is not allowed",
+                             hint="use \"auto\", \"classification\" or \"regression\"")
+        if self.task != "auto":
+            return str(self.task)
+        if self.method in METHODS and self.method not in REGRESSION_METHODS:
+            return "classification"
+        if self.method in REGRESSION_METHODS and self.method not in METHODS:
+            return "regression"
+        return detect_task(values).task
+
+    def _checked_settings(self, task: str) -> tuple[MethodInfo, dict[str, Any]]:
+        info = method_for(str(self.method), task, "Sampler")
         if self.params is not None and not isinstance(self.params, dict):
             raise UsageError(f"Sampler: params must be a dict or None, got {self.params!r}",
                              hint="write params={\"k\": 5}, or pass k=5")
@@ -235,8 +274,8 @@ def _from_pandas(X: Any) -> pl.DataFrame:
     return pl.from_pandas(X.rename(columns=str), include_index=False)
 
 
-def _labels(y: Any) -> np.ndarray:
-    """Labels as a one-dimensional numpy array, checked the scikit-learn way."""
+def _values(y: Any) -> np.ndarray:
+    """``y`` as a one-dimensional numpy array."""
     if isinstance(y, pl.Series):
         values = (y.cast(pl.String) if y.dtype == pl.Categorical else y).to_numpy()
     elif isinstance(y, pl.DataFrame):
@@ -248,6 +287,19 @@ def _labels(y: Any) -> np.ndarray:
     if values.ndim != 1:
         raise ValueError("Multilabel and multioutput targets are not supported: y must be one "
                          f"column of labels, got shape {values.shape}")
+    return values
+
+
+def _targets(values: np.ndarray) -> np.ndarray:
+    """Numeric targets as float64; a bad ``y`` is a ValueError, as scikit-learn raises."""
+    try:
+        return check_targets(values, where="y")
+    except InputError as err:
+        raise ValueError(str(err)) from None
+
+
+def _labels(values: np.ndarray) -> np.ndarray:
+    """Class labels, checked the scikit-learn way."""
     check_classification_targets(values)
     if type_of_target(values) not in ("binary", "multiclass"):
         raise ValueError(f"Unknown label type: {type_of_target(values)}")
