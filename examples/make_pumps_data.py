@@ -2,7 +2,9 @@
 
 Usage: ``python examples/make_pumps_data.py --rows 20000 --seed 7 --out data/pumps``.
 The default folder is ``data/pumps`` at the repository root, where
-``pipelines/pumps.toml`` looks for it.
+``pipelines/pumps.toml`` looks for it. With ``--task regression`` it writes the
+regression variant instead (``hours.csv``: hours until service, and
+``hours-truth.csv``), which ``pipelines/pumps-hours.toml`` reads.
 """
 
 from __future__ import annotations
@@ -10,6 +12,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from curate.demo import hours
 from curate.demo.data import write
 
 
@@ -21,8 +24,13 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--out", type=Path, default=Path(__file__).resolve().parents[1] / "data"
                         / "pumps", help="folder to write readings.csv and truth.csv into")
     parser.add_argument("--format", choices=("csv", "parquet"), default="csv")
+    parser.add_argument("--task", choices=("classification", "regression"),
+                        default="classification", help="the condition classes (default), or "
+                        "the hours until service (CSV only)")
     args = parser.parse_args(argv)
-    for name, path in write(args.out, rows=args.rows, seed=args.seed, fmt=args.format).items():
+    paths = hours.write(args.out, rows=args.rows, seed=args.seed) if args.task == "regression" \
+        else write(args.out, rows=args.rows, seed=args.seed, fmt=args.format)
+    for name, path in paths.items():
         print(f"{name}: {path}")
     return 0
 

@@ -1,4 +1,5 @@
-"""`curate demo`: build the invented pump-fleet data and run its pipeline."""
+"""`curate demo`: build the invented pump-fleet data and run its pipeline (its condition
+classes, or with ``--task regression`` its hours until service)."""
 
 from __future__ import annotations
 
@@ -13,10 +14,12 @@ def cmd_demo(args: argparse.Namespace) -> int:
     """Handler of ``curate demo``."""
     from curate.cli.progress import Reporter
     from curate.demo.pumps import run_demo
+    from curate.demo.service import run_hours_demo
 
+    demo = run_hours_demo if args.task == "regression" else run_demo
     with Reporter(args.quiet) as say:
-        text = run_demo(rows=args.rows, out=Path(args.out), seed=args.seed, quiet=args.quiet,
-                        progress=say)
+        text = demo(rows=args.rows, out=Path(args.out), seed=args.seed, quiet=args.quiet,
+                    progress=say)
     print(text)
     return 0
 
@@ -27,5 +30,8 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--rows", type=int, default=20000)
     p.add_argument("--seed", type=int, default=7)
     p.add_argument("--out", default="demo")
+    p.add_argument("--task", choices=("classification", "regression"), default="classification",
+                   help="classification: the condition of each pump (default); regression: "
+                        "the hours until its next service")
     p.add_argument("--quiet", action="store_true")
     p.set_defaults(func=cmd_demo)

@@ -10,11 +10,11 @@ import polars as pl
 
 from curate.api import run
 from curate.demo import data as demo_data
-from curate.methods import METHODS
+from curate.methods import method_for
 
-__all__ = ["demo_pipeline_text", "fault_catch", "run_demo"]
+__all__ = ["catch_lines", "demo_pipeline_text", "fault_catch", "run_demo", "run_scored"]
 
-CLEANING_FAMILIES = ("schema", "duplicates", "editing")
+CLEANING_FAMILIES = ("schema", "duplicates", "editing", "scores")
 
 
 def demo_pipeline_text() -> str:
@@ -57,7 +57,7 @@ def fault_catch(audit: pl.DataFrame, truth: pl.DataFrame, stage_family: dict[str
     """Score the rows the cleaning stages removed against the injected faults.
 
     Condensing and hybrid stages remove sound rows on purpose, so only
-    schema, duplicate and editing removals are scored. Returns precision and
+    schema, duplicate, editing and score-threshold removals are scored. Returns precision and
     recall overall, and recall per fault kind.
 
     Examples
@@ -87,16 +87,39 @@ def run_demo(rows: int = 20000, out: Path = Path("demo"), seed: int = 7, quiet: 
     """Write the demo data and pipeline under ``out``, run it, and describe the outcome."""
     out = Path(out)
     paths = demo_data.write(out / "data", rows=rows, seed=seed)
-    pipeline = out / "pumps.toml"
-    pipeline.write_text(demo_pipeline_text(), encoding="utf-8")
-    result = run(pipeline, write=True, overwrite=True, progress=None if quiet else progress)
-    truth = pl.read_csv(paths["truth"])
-    families = {"schema": "schema"} | {s["name"]: METHODS[s["method"]].family
-                                       for s in result.summary["stages"]}
-    catch = fault_catch(result.audit, truth, families)
-    s = result.summary
+    s, catch = run_scored(out / "pumps.toml", demo_pipeline_text(), paths["truth"],
+                          None if quiet else progress)
     lines = [f"demo: {s['rows_in']} pump readings in, {s['rows_kept']} kept, "
              f"{s['rows_removed']} removed ({s['rows_quarantined']} quarantined by the schema)"]
+    lines += catch_lines(s, catch)
+    lines.append(f"run folder: {out / 'run'}  (try: curate why <row id> --run {out / 'run'})")
+    return "\n".join(lines)
+
+
+def run_scored(pipeline: Path, text: str, truth_path: Path,
+               progress: Callable[[str], None] | None) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Write the pipeline file, run it (writing its run folder) and score its catch.
+
+    Returns the run's summary and :func:`fault_catch` against the truth file.
+    """
+    pipeline.write_text(text, encoding="utf-8")
+    result = run(pipeline, write=True, overwrite=True, progress=progress)
+    task = result.summary["task"]["task"]
+    families = {"schema": "schema"} | {s["name"]: method_for(s["method"], task).family
+                                       for s in result.summary["stages"]}
+    return result.summary, fault_catch(result.audit, pl.read_csv(truth_path), families)
+
+
+def catch_lines(s: dict[str, Any], catch: dict[str, Any]) -> list[str]:
+    """One line per stage, then the catch of the cleaning stages, overall and per fault kind.
+
+    Examples
+    --------
+    >>> catch_lines({"stages": []}, {"caught": 1, "injected": 2, "recall": 0.5,
+    ...              "precision": 1.0, "removed_by_cleaning": 1, "by_fault": {}})[0][:53]
+    'injected faults caught by the cleaning stages: 1 of 2'
+    """
+    lines = []
     for st in s["stages"]:
         lines.append(f"  {st['name']:<20} {st['method']:<24} removed {st['removed']:>6} of "
                      f"{st['rows_in']:>6} in {st['seconds']:.2f} s")
@@ -106,5 +129,4 @@ def run_demo(rows: int = 20000, out: Path = Path("demo"), seed: int = 7, quiet: 
     for kind, row in catch["by_fault"].items():
         lines.append(f"  {kind:<12} {row['caught']:>5} of {row['injected']:>5} caught "
                      f"(recall {row['recall']:.1%})")
-    lines.append(f"run folder: {out / 'run'}  (try: curate why <row id> --run {out / 'run'})")
-    return "\n".join(lines)
+    return lines

@@ -45,6 +45,7 @@ from curate.space.points import Space
 __all__ = ["REG_CNN", "REG_ENN", "REG_HARDNESS", "reg_cnn", "reg_enn", "regression_hardness"]
 
 LIST_EXTRA = 16  # neighbours listed beyond k, so that most rows find k kept rows in their list
+BLOCK = 512  # RegCNN rows whose nearest kept rows one engine search finds at once
 
 
 def _deviation(write: Callable[[float], str], value: float, mean: float, sd: float,
@@ -107,27 +108,45 @@ class _KeptRows:
 
     A row's listed neighbours (nearest first, ties by position) that are kept
     are exactly its nearest kept rows as long as the list holds enough of them:
-    every unlisted row is farther, or as near at a higher position. Otherwise
-    the row is compared with every kept row.
+    every unlisted row is farther, or as near at a higher position. Rows whose
+    list falls short get their k nearest kept rows from one engine search per
+    block of presented rows (:meth:`search_block`); rows that joined since that
+    search are then compared one by one, and the union's m nearest are exact.
     """
 
-    def __init__(self, space: Space, dist: np.ndarray, nbr: np.ndarray) -> None:
-        self.space, self.dist, self.nbr = space, dist, nbr
+    def __init__(self, space: Space, dist: np.ndarray, nbr: np.ndarray, k: int) -> None:
+        self.space, self.dist, self.nbr, self.k = space, dist, nbr, k
         self.kept = np.zeros(space.n, dtype=bool)
         self.members: list[int] = []
+        self.found: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self.searched = 0  # members when the block's search ran
 
     def add(self, i: int) -> None:
         self.kept[i] = True
         self.members.append(i)
 
+    def search_block(self, rows: np.ndarray) -> None:
+        """The k nearest kept rows, as the kept set stands now, of the block's rows that need them."""
+        want = np.array([r for r in rows if not self.kept[r]
+                         and self.kept[self.nbr[r]].sum() < self.k], dtype=np.int64)
+        self.searched, self.found = len(self.members), {}
+        if len(want):
+            d, p = kneighbors(self.space, min(self.k, self.searched), queries=want,
+                              reference=np.asarray(self.members, dtype=np.int64),
+                              exclude_self=False)
+            self.found = {int(r): (p[j], d[j]) for j, r in enumerate(want)}
+
     def nearest(self, i: int, m: int) -> tuple[np.ndarray, np.ndarray]:
         listed = self.kept[self.nbr[i]]
         if listed.sum() >= m:
             return self.nbr[i][listed][:m], self.dist[i][listed][:m]
-        members = np.asarray(self.members, dtype=np.int64)
-        d = self.space.distances([i], members)[0]
-        pick = np.lexsort((members, d))[:m]
-        return members[pick], d[pick]
+        near, near_d = self.found[i]
+        joined = np.asarray(self.members[self.searched:], dtype=np.int64)
+        if len(joined):
+            near = np.concatenate([near, joined])
+            near_d = np.concatenate([near_d, self.space.distances([i], joined)[0]])
+        pick = np.lexsort((near, near_d))[:m]
+        return near[pick], near_d[pick]
 
 
 def reg_cnn(space: Space, targets: np.ndarray, *, removable: np.ndarray, seed: int = 0,
@@ -159,13 +178,15 @@ def reg_cnn(space: Space, targets: np.ndarray, *, removable: np.ndarray, seed: i
     _, sd = neighbour_mean_std(y, nbr[:, :k])
     limit = alpha * sd
     presented = _presented(space.n, order, seed)
-    store = _KeptRows(space, dist, nbr)
+    store = _KeptRows(space, dist, nbr, k)
     fixed = np.flatnonzero(~np.asarray(removable, dtype=bool))
     for i in fixed if len(fixed) else presented[:1]:
         store.add(int(i))
     write = value_writer(y, unit)
     out = SelectionBuilder(space.n)
-    for i in presented:
+    for start, i in enumerate(presented):
+        if start % BLOCK == 0:
+            store.search_block(presented[start:start + BLOCK])
         if store.kept[i]:
             continue
         near, near_d = store.nearest(int(i), min(k, len(store.members)))

@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 from sklearn.neighbors import KNeighborsRegressor, NearestNeighbors
 
+from curate.methods import regression
 from curate.methods.regression import reg_cnn
 from curate.space import Space
 
@@ -48,16 +49,19 @@ def _step_by_step(x: np.ndarray, y: np.ndarray, k: int, alpha: float,
     return sorted(kept)
 
 
-@pytest.mark.parametrize(("k", "alpha", "order"), [(3, 0.5, "input"), (5, 1.0, "shuffled"),
-                                                   (9, 0.25, "shuffled")])
-def test_kept_rows_equal_the_rule_run_with_scikit_learn(k: int, alpha: float, order: str) -> None:
+@pytest.mark.parametrize(("n", "k", "alpha", "order", "block"), [
+    (300, 3, 0.5, "input", 512), (300, 5, 1.0, "shuffled", 512),
+    (300, 9, 0.25, "shuffled", 512), (300, 5, 0.5, "shuffled", 40)])  # 40: eight blocks
+def test_kept_rows_equal_the_rule_run_with_scikit_learn(n: int, k: int, alpha: float, order: str,
+                                                        block: int, monkeypatch) -> None:
+    monkeypatch.setattr(regression, "BLOCK", block)
     rng = np.random.default_rng(11)
-    x = rng.uniform(size=(300, 3))
-    y = np.sin(6 * x[:, 0]) + x[:, 1] ** 2 + rng.normal(scale=0.1, size=300)
-    sel = reg_cnn(Space.from_matrix(x), y, removable=np.ones(300, bool), k=k, alpha=alpha,
+    x = rng.uniform(size=(n, 3))
+    y = np.sin(6 * x[:, 0]) + x[:, 1] ** 2 + rng.normal(scale=0.1, size=n)
+    sel = reg_cnn(Space.from_matrix(x), y, removable=np.ones(n, bool), k=k, alpha=alpha,
                   order=order, seed=5)
     # The presentation order is numpy's seeded permutation (documented), or input order.
-    presented = np.arange(300) if order == "input" else np.random.default_rng(5).permutation(300)
+    presented = np.arange(n) if order == "input" else np.random.default_rng(5).permutation(n)
     assert sel.kept.tolist() == _step_by_step(x, y, k, alpha, presented)
     assert np.all(np.isin(sel.kept_as, sel.kept))
 
