@@ -92,14 +92,15 @@ classification method
 
 
 def target_spread(targets: np.ndarray) -> float:
-    """The target's standard deviation (ddof 0): the unit of every scaled residual.
+    """The target's standard deviation (ddof 0): the unit of every scaled residual (0 when empty).
 
     Examples
     --------
-    >>> target_spread(np.array([1.0, 3.0]))
-    1.0
+    >>> target_spread(np.array([1.0, 3.0])), target_spread(np.zeros(0))
+    (1.0, 0.0)
     """
-    return float(np.std(np.asarray(targets, dtype=np.float64)))
+    y = np.asarray(targets, dtype=np.float64)
+    return float(np.std(y)) if len(y) else 0.0
 
 
 def describe_target(values: np.ndarray) -> dict[str, float | int | None]:
@@ -174,6 +175,8 @@ def quantile_bins(targets: np.ndarray, bins: int) -> tuple[np.ndarray, np.ndarra
     if bins < 1:
         raise ValueError("bins must be >= 1")
     y = np.asarray(targets, dtype=np.float64)
+    if len(y) == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(2)
     edges = np.unique(np.quantile(y, np.linspace(0.0, 1.0, bins + 1)))
     if len(edges) == 1:
         return np.zeros(len(y), dtype=np.int64), np.array([edges[0], edges[0]])
