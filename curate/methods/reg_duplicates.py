@@ -70,7 +70,8 @@ tolerance 1.0 h apart); the row with the target nearest their median 12.0 h is k
     out = SelectionBuilder(space.n)
     for group in conflicted if policy != "report" else []:
         keeper = _median_row(group, y) if policy == "keep-median" else -1
-        said = (f"same feature values as {len(group) - 1} other rows, targets from "
+        others = "1 other row" if len(group) == 2 else f"{len(group) - 1} other rows"
+        said = (f"same feature values as {others}, targets from "
                 f"{write(y[group].min())} to {write(y[group].max())} (more than the tolerance "
                 f"{write(limit)} apart)")
         if keeper >= 0:
