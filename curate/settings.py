@@ -78,7 +78,7 @@ class Param:
             return "one of " + ", ".join(repr(c) for c in self.choices)
         kinds = self.kind if isinstance(self.kind, tuple) else (self.kind,)
         names = {int: "an integer", float: "a number", str: "a string", bool: "true or false",
-                 list: "a list"}
+                 list: "a list", dict: "a table"}
         words = " or ".join(names.get(k, k.__name__) for k in kinds)
         if self.low is not None and self.high is not None:
             words += f" from {self.low} to {self.high}"

@@ -21,12 +21,15 @@ def cmd_why(args: argparse.Namespace) -> int:
 def cmd_methods(args: argparse.Namespace) -> int:
     """Handler of ``curate methods``."""
     from curate.cli.render import methods_table, methods_text
-    from curate.methods import METHODS
+    from curate.methods import METHODS, REGRESSION_METHODS
 
     if args.json:
-        print(json.dumps(methods_table(METHODS), indent=2, default=str))
+        print(json.dumps(methods_table(METHODS) + methods_table(REGRESSION_METHODS, "regression"),
+                         indent=2, default=str))
     else:
         print(methods_text(METHODS))
+        print("For regression tables (a numeric target; see [input] task):\n")
+        print(methods_text(REGRESSION_METHODS))
     return 0
 
 
@@ -36,6 +39,7 @@ def add_commands(sub: Any) -> None:
     p.add_argument("row_id")
     p.add_argument("--run", required=True, help="the run folder")
     p.set_defaults(func=cmd_why)
-    p = sub.add_parser("methods", help="list every method with its parameters")
+    p = sub.add_parser("methods", help="list every method with its parameters, for "
+                       "classification and for regression tables")
     p.add_argument("--json", action="store_true")
     p.set_defaults(func=cmd_methods)

@@ -50,9 +50,11 @@ def distances_text(profile: Mapping[str, Any]) -> str:
     return "\n".join(lines)
 
 
-def methods_table(methods: Mapping[str, MethodInfo]) -> list[dict[str, Any]]:
+def methods_table(methods: Mapping[str, MethodInfo],
+                  task: str = "classification") -> list[dict[str, Any]]:
     """Every method with its parameters, as JSON-ready data (`curate methods --json`)."""
-    return [{"key": m.key, "name": m.name, "family": m.family, "reference": m.reference,
+    return [{"key": m.key, "task": task, "name": m.name, "family": m.family,
+             "reference": m.reference,
              "purpose": m.purpose, "reasons": m.reasons,
              "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
                          "doc": p.doc} for p in m.params]} for m in methods.values()]

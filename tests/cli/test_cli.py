@@ -12,7 +12,7 @@ import numpy as np
 import polars as pl
 
 from curate.cli import main
-from curate.methods import METHODS
+from curate.methods import METHODS, REGRESSION_METHODS
 
 STAGES = [{"name": "copies", "method": "exact-duplicates"},
           {"name": "mislabels", "method": "enn", "k": 3}]
@@ -76,7 +76,8 @@ def test_check_selects_nothing(make_pipeline, two_blobs, capsys):
 def test_methods_lists_every_key_with_parameters(capsys):
     assert main(["methods", "--json"]) == 0
     table = json.loads(capsys.readouterr().out)
-    assert [m["key"] for m in table] == list(METHODS)
+    assert [m["key"] for m in table if m["task"] == "classification"] == list(METHODS)
+    assert [m["key"] for m in table if m["task"] == "regression"] == list(REGRESSION_METHODS)
     enn = next(m for m in table if m["key"] == "enn")
     assert enn["reference"] == "Wilson 1972"
     assert {p["name"]: p["default"] for p in enn["params"]} == {"k": 3, "vote": "majority"}
