@@ -121,3 +121,17 @@ def test_missing_targets_the_schema_allows_still_stop_a_regression_run(make_pipe
     code, err = run_cli(path, capsys)
     assert_clean_failure(path, code, err, 3, "table.csv, column 'y'",
                          "10 rows (first: 1, 3, 5, 7, 9) have no finite target value")
+
+
+def test_evaluate_out_writes_a_report_that_agrees_with_its_json(make_pipeline, diabetes,
+                                                                tmp_path) -> None:
+    path = make_pipeline(diabetes, REG_ENN)
+    out = tmp_path / "evaluation"
+    assert main(["evaluate", str(path), "--folds", "3", "--k", "1,5", "--inject-noise", "0.05",
+                 "--out", str(out), "--quiet"]) == 0
+    result = json.loads((out / "evaluation.json").read_text())
+    page = (out / "report.html").read_text()
+    assert f'data-key="evaluation.baseline_rmse" data-value="{result["baseline_rmse"]}"' in page
+    first = result["results"][0]
+    assert f'data-key="evaluation.results.0.rmse" data-value="{first["rmse"]}"' in page
+    assert "Injected outliers" in page and "RMSE against k" in page and 'id="target"' in page
