@@ -12,9 +12,12 @@ from collections.abc import Sequence
 __all__ = [
     "CurateError",
     "InputError",
+    "OutputError",
+    "OutputRecovered",
     "PipelineFileError",
     "SafetyLimitError",
     "SchemaFailure",
+    "Terminated",
     "UsageError",
     "first_ids",
 ]
@@ -47,6 +50,11 @@ class PipelineFileError(UsageError):
     """The pipeline file is missing, unreadable or has a bad key (exit code 2)."""
 
 
+class OutputError(UsageError):
+    """The output path cannot be written as asked: it is not curate's, it is busy, it
+    overlaps the input, it is not writable or its disk is full (exit code 2)."""
+
+
 class InputError(CurateError):
     """The input table cannot be used as it is (exit code 3)."""
 
@@ -65,6 +73,16 @@ class SafetyLimitError(CurateError):
     """A safety limit stopped the run before anything was written (exit code 4)."""
 
     exit_code = 4
+
+
+class Terminated(KeyboardInterrupt):
+    """The process got SIGTERM; raised like Ctrl-C so that every claim is released (exit 143)."""
+
+    exit_code = 143
+
+
+class OutputRecovered(UserWarning):
+    """curate finished or undid an interrupted replace, or took over a dead run's lock."""
 
 
 def first_ids(ids: Sequence[object], limit: int = 5) -> str:

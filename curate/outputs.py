@@ -1,0 +1,292 @@
+"""Writing an output all or nothing, holding it exclusively from before the work to the end.
+
+Every command that writes (``run``, ``evaluate --out``, ``review``, ``diff
+--out``) calls :func:`claim_output` right after it has read its pipeline file,
+before any work:
+
+1. :func:`~curate.output_checks.check_output` checks the path (exit 2 when it
+   may not be written);
+2. the lock beside the output (:mod:`curate.output_lock`) is taken for the
+   whole run; a replace a killed run left half done is finished and stray
+   unfinished outputs are removed (:mod:`curate.output_swap`), each said in an
+   :class:`~curate.errors.OutputRecovered` warning;
+3. :meth:`Claim.write_folder` or :meth:`Claim.write_file` writes under a
+   temporary name and then puts the result in place; a full disk removes what
+   was written and says how much space the output needs;
+4. the claim is released on every exit path, Ctrl-C and SIGTERM included.
+
+``CURATE_TEST_DISK_BYTES=N`` makes writing fail as on a full disk once more
+than N bytes are written: the full-disk test uses it where it cannot mount a
+small file system.
+"""
+
+from __future__ import annotations
+
+import errno
+import functools
+import json
+import os
+import shutil
+import signal
+import threading
+import time
+import warnings
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+from types import FrameType
+from typing import Any
+
+from curate.errors import OutputError, OutputRecovered, Terminated
+from curate.output_checks import MARKER, amount, check_output
+from curate.output_lock import OutputLock, sweep_lock_leftovers
+from curate.output_swap import journal_path, kill_point, new_partial, put_in_place, recover, sweep
+
+__all__ = ["Claim", "OutputFile", "claim_output", "settle"]
+
+
+@dataclass(frozen=True)
+class OutputFile:
+    """One file of an output folder: its name, how to write it, and about how many bytes it takes.
+
+    Examples
+    --------
+    >>> OutputFile.text("summary.json", "{}\\n").size
+    3
+    """
+
+    name: str
+    write: Callable[[Path], object]
+    size: int = 0
+
+    @classmethod
+    def text(cls, name: str, text: str) -> OutputFile:
+        """A UTF-8 text file."""
+        return cls(name, functools.partial(Path.write_text, data=text, encoding="utf-8"),
+                   len(text.encode()))
+
+
+def _size(path: Path) -> int:
+    if not path.is_dir():
+        return path.stat().st_size if path.exists() else 0
+    return sum(f.stat().st_size for f in path.rglob("*") if f.is_file())
+
+
+def _disk_full(err: BaseException) -> bool:
+    if isinstance(err, OSError) and err.errno in (errno.ENOSPC, errno.EDQUOT):
+        return True
+    return any(os.strerror(code) in str(err) for code in (errno.ENOSPC, errno.EDQUOT))
+
+
+def _test_disk_limit(written: Path) -> None:
+    limit = os.environ.get("CURATE_TEST_DISK_BYTES")
+    if limit and _size(written) > int(limit):
+        raise OSError(errno.ENOSPC, f"{os.strerror(errno.ENOSPC)} (CURATE_TEST_DISK_BYTES={limit})")
+
+
+class _Signals:
+    """While a claim is held, SIGTERM unwinds like Ctrl-C (so that the claim is released), and
+    during the final renames both signals wait until the output is in place."""
+
+    def __init__(self) -> None:
+        self.previous: dict[int, Any] = {}
+        self.pending: int | None = None
+        self.deferring = False
+
+    def __enter__(self) -> _Signals:
+        # Python runs signal handlers in the main thread only, and only it may set them.
+        if threading.current_thread() is threading.main_thread():
+            for number in (signal.SIGINT, signal.SIGTERM):
+                self.previous[number] = signal.signal(number, self._handle)
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        for number, handler in self.previous.items():
+            signal.signal(number, handler)
+
+    def _handle(self, number: int, frame: FrameType | None) -> None:
+        if self.deferring:
+            self.pending = number
+            return
+        previous = self.previous.get(number)
+        if callable(previous):
+            previous(number, frame)
+        elif previous != signal.SIG_IGN:
+            raise Terminated() if number == signal.SIGTERM else KeyboardInterrupt()
+
+    @contextmanager
+    def deferred(self) -> Iterator[None]:
+        """Hold signals back while the block runs; act on one that came when it ends."""
+        self.deferring = True
+        try:
+            yield
+        finally:
+            self.deferring = False
+            if self.pending is not None:
+                self._handle(self.pending, None)
+
+
+class Claim:
+    """The exclusive right to write one output path, given by :func:`claim_output`."""
+
+    def __init__(self, path: Path, signals: _Signals) -> None:
+        self.path = path
+        self.written = False
+        self._signals = signals
+        self._partial: Path | None = None
+
+    def write_folder(self, files: Sequence[OutputFile], kind: str = "run") -> None:
+        """Write ``files`` into a new folder with :data:`MARKER`, then put it at the path."""
+        partial = self._partial = new_partial(self.path)
+        partial.mkdir()
+        _marker(partial, kind, ())
+        self._fill(partial, files)
+        _marker(partial, kind, [f.name for f in files])
+        self._finish(partial)
+
+    def write_file(self, write: Callable[[Path], object], size: int = 0) -> None:
+        """Let ``write`` write a new file, then put it at the path."""
+        partial = self._partial = new_partial(self.path)
+        self._fill(partial, [OutputFile(self.path.name, write, size)], single=True)
+        self._finish(partial)
+
+    def _fill(self, partial: Path, files: Sequence[OutputFile], single: bool = False) -> None:
+        done = 0
+        for index, item in enumerate(files):
+            try:
+                item.write(partial if single else partial / item.name)
+                _test_disk_limit(partial)
+            except Exception as err:
+                if not _disk_full(err):
+                    raise
+                raise self._full(partial, item.name,
+                                 done + sum(f.size for f in files[index:])) from None
+            done += _size(partial if single else partial / item.name)
+            kill_point("writing")
+
+    def _full(self, partial: Path, name: str, needed: int) -> OutputError:
+        written = _size(partial)
+        self.discard()
+        free = shutil.disk_usage(self.path.parent).free
+        return OutputError(f"the disk holding {self.path.parent} is full: writing {name} failed "
+                           f"after {amount(written)}; the output needs about "
+                           f"{amount(max(needed, written))} and {amount(free)} are free; "
+                           "nothing was written",
+                           hint="free that much space there, or choose an output path on another "
+                                "disk")
+
+    def _finish(self, partial: Path) -> None:
+        kill_point("written")
+        with self._signals.deferred():
+            put_in_place(partial, self.path)
+            self._partial = None
+            self.written = True
+
+    def discard(self) -> None:
+        """Remove what this claim wrote but did not put in place."""
+        if self._partial is not None:
+            if self._partial.is_dir():
+                shutil.rmtree(self._partial, ignore_errors=True)
+            else:
+                self._partial.unlink(missing_ok=True)
+            self._partial = None
+
+
+def _marker(folder: Path, kind: str, files: Sequence[str]) -> None:
+    (folder / MARKER).write_text(json.dumps({
+        "written_by": "curate", "kind": kind, "files": list(files),
+        "written_at": time.strftime("%Y-%m-%d %H:%M:%S %z"),
+        "note": "curate --overwrite replaces this folder only while this file is here and the "
+                "folder holds only the files listed"}, indent=2) + "\n", encoding="utf-8")
+
+
+def _note(message: str) -> None:
+    warnings.warn(message, OutputRecovered, stacklevel=4)
+
+
+def _tidy(lock: OutputLock, path: Path) -> None:
+    """With the lock held: say whose stale lock was taken, finish a half-done replace, sweep."""
+    if lock.took_over is not None:
+        _note(f"took over the lock of {path} from a run that is no longer running "
+              f"({lock.took_over.describe()})")
+    done = recover(path)
+    if done is not None:
+        _note(done)
+    swept = sweep(path) + sweep_lock_leftovers(path)
+    if swept:
+        _note(f"removed what interrupted runs left unfinished beside {path}: {', '.join(swept)}")
+
+
+def _make_parents(folder: Path) -> list[Path]:
+    missing = []
+    while not folder.exists():
+        missing.append(folder)
+        folder = folder.parent
+    for made in reversed(missing):
+        made.mkdir()
+    return missing
+
+
+@contextmanager
+def claim_output(target: str | Path, *, overwrite: bool,
+                 inputs: Sequence[tuple[str, Path]] = (), folder: bool = True,
+                 owned: Callable[[Path], bool] | None = None) -> Iterator[Claim]:
+    """Check ``target`` and hold it exclusively until the block ends (see the module notes).
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> target = Path(tempfile.mkdtemp()) / "run"
+    >>> with claim_output(target, overwrite=False) as claim:
+    ...     claim.write_folder([OutputFile("a.txt", lambda p: p.write_text("a"))])
+    >>> sorted(p.name for p in target.iterdir())
+    ['a.txt', 'written-by-curate.json']
+    >>> sorted(p.name for p in target.parent.iterdir())
+    ['run']
+    """
+    path = check_output(target, overwrite=overwrite, inputs=inputs, folder=folder, owned=owned)
+    lock = OutputLock(path)
+    with _Signals() as signals:
+        claim = Claim(path, signals)
+        made: list[Path] = []
+        try:
+            try:
+                made = _make_parents(path.parent)
+                lock.acquire()
+            except OSError as err:
+                raise OutputError(f"cannot write in {path.parent} ({err.strerror}); nothing was "
+                                  "written", hint="choose an output path in a folder you can "
+                                                  "write to") from None
+            _tidy(lock, path)
+            check_output(path, overwrite=overwrite, inputs=inputs, folder=folder, owned=owned)
+            kill_point("claimed")
+            yield claim
+        finally:
+            try:
+                claim.discard()
+            finally:
+                lock.release()
+                for folder_made in made if not claim.written else ():
+                    try:
+                        folder_made.rmdir()
+                    except OSError:
+                        break
+
+
+def settle(target: str | Path) -> None:
+    """Finish an interrupted replace of ``target``, if a killed run left one, before reading it.
+
+    Examples
+    --------
+    >>> settle("no/such/run")  # nothing to finish: nothing happens
+    """
+    path = Path(os.path.abspath(target))
+    if not journal_path(path).exists():
+        return
+    lock = OutputLock(path)
+    lock.acquire()
+    try:
+        _tidy(lock, path)
+    finally:
+        lock.release()
