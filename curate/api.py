@@ -6,6 +6,8 @@ from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
+from curate.output_checks import spec_inputs
+from curate.outputs import claim_output
 from curate.pipeline import RunResult, execute, prepare
 from curate.runfolder import write_result
 from curate.spec import Spec, load_spec, spec_from_dict
@@ -28,7 +30,9 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
     (paths relative to ``base``) or a checked :class:`~curate.spec.Spec`.
-    Nothing is written unless ``write`` is true or ``out`` is given.
+    Nothing is written unless ``write`` is true or ``out`` is given; then the
+    output folder is checked and claimed before the work starts (see
+    :mod:`curate.outputs`).
 
     Examples
     --------
@@ -42,9 +46,11 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     (1, [4])
     """
     spec = _as_spec(pipeline, base)
-    result = execute(prepare(spec), progress=progress)
-    if write or out is not None:
-        folder = Path(out) if out is not None else spec.output.folder
-        write_result(result, folder, spec.output.overwrite if overwrite is None else overwrite,
-                     report=spec.output.report)
+    if not write and out is None:
+        return execute(prepare(spec), progress=progress)
+    with claim_output(Path(out) if out is not None else spec.output.folder,
+                      overwrite=spec.output.overwrite if overwrite is None else overwrite,
+                      inputs=spec_inputs(spec)) as claim:
+        result = execute(prepare(spec), progress=progress)
+        write_result(result, claim, report=spec.output.report)
     return result

@@ -65,7 +65,9 @@ def _summary_text(summary: dict[str, Any], out: Path) -> str:
 
 def cmd_why(args: argparse.Namespace) -> int:
     from curate.audit import explain
+    from curate.outputs import settle
 
+    settle(args.run)
     print(explain(Path(args.run), args.row_id))
     return 0
 
@@ -192,9 +194,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except CurateError as err:
         print(f"{type(err).__name__}: {err}", file=sys.stderr)
         return err.exit_code
-    except KeyboardInterrupt:
+    except KeyboardInterrupt as stop:
         print("stopped: nothing was written", file=sys.stderr)
-        return 130
+        return int(getattr(stop, "exit_code", 130))
 
 
 if __name__ == "__main__":

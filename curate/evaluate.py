@@ -38,13 +38,15 @@ import polars as pl
 from curate import stats
 from curate.errors import InputError, SafetyLimitError, UsageError
 from curate.neighbours import kneighbors
-from curate.pipeline import Prepared, check_safety, prepare, run_stage
+from curate.output_checks import spec_inputs
+from curate.outputs import OutputFile, claim_output
+from curate.pipeline import Prepared, check_safety, execute, prepare, run_stage
 from curate.space import Space, fit_space
 from curate.spec import Spec
 from curate.stats import KNN, FoldOutcome, Key
 
 __all__ = ["K_GRID", "KNN", "evaluate", "evaluate_prepared", "parse_ks", "parse_model_params",
-           "read_faults", "register", "write_evaluation"]
+           "evaluation_files", "read_faults", "register", "write_evaluation"]
 
 K_GRID = tuple(range(1, 26, 2))
 TEST_NAME = ("corrected resampled t-test (Nadeau and Bengio 2003), two-sided, on per-fold "
@@ -427,38 +429,44 @@ def write_evaluation(folder: str | Path, result: dict[str, Any], prep: Prepared,
                      overwrite: bool = False) -> None:
     """Write ``evaluation.json`` and ``report.html`` (the full run's report plus the evaluation).
 
-    The run on all rows is executed here, for the report's pictures of what the
-    pipeline removes; the folder appears complete or not at all.
+    The folder appears complete or not at all, and replaces with ``overwrite``
+    only a folder curate wrote (see :mod:`curate.outputs`).
     """
-    from curate.pipeline import execute
+    with claim_output(folder, overwrite=overwrite, inputs=spec_inputs(prep.spec)) as claim:
+        claim.write_folder(evaluation_files(result, prep), kind="evaluation")
+
+
+def evaluation_files(result: dict[str, Any], prep: Prepared) -> list[OutputFile]:
+    """The files of an evaluation folder; the run on all rows is executed here, for the
+    report's pictures of what the pipeline removes."""
     from curate.report import render_run
-    from curate.table import write_run_folder
 
-    run = execute(prep)
-
-    def fill(tmp: Path) -> None:
-        (tmp / "evaluation.json").write_text(json.dumps(result, indent=2) + "\n")
-        (tmp / "report.html").write_text(render_run(run, evaluation=result), encoding="utf-8")
-
-    write_run_folder(Path(folder), overwrite, fill)
+    texts = {"evaluation.json": json.dumps(result, indent=2) + "\n",
+             "report.html": render_run(execute(prep), evaluation=result)}
+    return [OutputFile.text(name, text) for name, text in texts.items()]
 
 
 def _command(args: argparse.Namespace) -> int:
+    from contextlib import nullcontext
+
     from curate.progress import Reporter
     from curate.report import evaluation_text
     from curate.spec import load_spec
 
-    with Reporter(args.quiet) as say:
-        prep = prepare(load_spec(args.pipeline))
+    spec = load_spec(args.pipeline)
+    reads = spec_inputs(spec) + ([("the fault table", Path(args.truth))] if args.truth else [])
+    out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
+    with Reporter(args.quiet) as say, out or nullcontext() as claim:
+        prep = prepare(spec)
         result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
                                    ks=parse_ks(args.k), model=args.model,
                                    model_params=parse_model_params(args.model_param),
                                    inject_noise=args.inject_noise,
                                    noise_towards=args.noise_towards, truth=args.truth,
                                    seed=args.seed, progress=say)
-        if args.out:
+        if claim is not None:
             say(f"writing {args.out}")
-            write_evaluation(args.out, result, prep, overwrite=args.overwrite)
+            claim.write_folder(evaluation_files(result, prep), kind="evaluation")
     print(json.dumps(result, indent=2) if args.json else evaluation_text(result))
     return 0
 

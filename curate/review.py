@@ -15,8 +15,8 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import sys
+from contextlib import nullcontext
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -24,6 +24,7 @@ from typing import Any
 import polars as pl
 
 from curate.errors import UsageError, first_ids
+from curate.outputs import claim_output, settle
 
 __all__ = ["CHANGES", "DECISIONS", "RUN_FOLDER_FILES", "RunDiff", "diff_runs", "diff_text",
            "fates", "protected_ids", "register", "review_table", "run_folder", "write_review"]
@@ -51,6 +52,7 @@ def run_folder(folder: str | Path) -> Path:
       hint: give a folder that `curate run` wrote (its [output] folder or --out)
     """
     path = Path(folder)
+    settle(path)
     missing = [name for name in RUN_FOLDER_FILES if not (path / name).is_file()]
     if missing:
         raise UsageError(f"{path} is not a run folder (it has no {missing[0]})",
@@ -96,17 +98,22 @@ def review_table(run: str | Path) -> pl.DataFrame:
     return table.select(*_LEADING, *[c for c in removed.columns if c != "row_id"])
 
 
-def _write_new(path: Path, overwrite: bool, write: Any) -> None:
-    """Write through a temporary file next to ``path``; refuse to replace one unless told."""
-    if path.exists() and not overwrite:
-        raise UsageError(f"{path} already exists; nothing was written",
-                         hint="give another --out, or add --overwrite to replace it")
-    if not path.parent.is_dir():
-        raise UsageError(f"folder {path.parent} does not exist; nothing was written",
-                         hint="create the folder, or give --out in an existing one")
-    tmp = path.with_name(f".{path.name}.partial")
-    write(tmp)
-    os.replace(tmp, path)
+def _made_by_curate(*columns: str) -> Any:
+    """Recognise a CSV curate wrote (perhaps since edited in a spreadsheet) by its first columns."""
+    def check(path: Path) -> bool:
+        with open(path, encoding="utf-8-sig", errors="replace") as handle:
+            header = handle.readline().strip()
+        sep = _separator(header) or ","
+        return tuple(c.strip().strip('"') for c in header.split(sep)[:len(columns)]) == columns
+
+    return check
+
+
+def _claim_csv(path: Path, overwrite: bool, reads: list[Path], columns: tuple[str, str]) -> Any:
+    """Check and claim the CSV ``path`` before the work; ``overwrite`` replaces only a file whose
+    header starts with ``columns`` (one curate wrote)."""
+    return claim_output(path, overwrite=overwrite, inputs=[("the run folder", r) for r in reads],
+                        folder=False, owned=_made_by_curate(*columns))
 
 
 def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -> int:
@@ -120,8 +127,10 @@ def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -
     curate.errors.UsageError: no/such/run is not a run folder (it has no kept.parquet)
       hint: give a folder that `curate run` wrote (its [output] folder or --out)
     """
-    table = review_table(run)
-    _write_new(Path(out), overwrite, table.write_csv)
+    run_folder(run)
+    with _claim_csv(Path(out), overwrite, [Path(run)], ("row_id", "decision")) as claim:
+        table = review_table(run)
+        claim.write_file(table.write_csv, int(table.estimated_size()))
     return table.height
 
 
@@ -345,10 +354,13 @@ def diff_text(diff: RunDiff) -> str:
 
 def cmd_diff(args: argparse.Namespace) -> int:
     """Handler of ``curate diff``."""
-    diff = diff_runs(args.run_a, args.run_b)
+    out = _claim_csv(Path(args.out), args.overwrite, [Path(args.run_a), Path(args.run_b)],
+                     ("row_id", "change")) if args.out else nullcontext()
+    with out as claim:
+        diff = diff_runs(args.run_a, args.run_b)
+        if claim is not None:
+            claim.write_file(diff.changes.write_csv, int(diff.changes.estimated_size()))
     if diff.warning:
         print(f"warning: {diff.warning}", file=sys.stderr)
-    if args.out:
-        _write_new(Path(args.out), args.overwrite, diff.changes.write_csv)
     print(json.dumps(diff.to_json(), indent=2, default=str) if args.json else diff_text(diff))
     return 0

@@ -1,13 +1,9 @@
-"""Reading the input (CSV, Parquet, folders, globs), row identity, and the atomic run folder."""
+"""Reading the input (CSV, Parquet, folders, globs) and row identity."""
 
 from __future__ import annotations
 
 import glob
 import hashlib
-import os
-import shutil
-import uuid
-from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
@@ -15,7 +11,7 @@ import polars as pl
 
 from curate.errors import InputError, PipelineFileError, UsageError, first_ids
 
-__all__ = ["file_sha256", "input_files", "read_input", "row_ids", "write_run_folder"]
+__all__ = ["file_sha256", "input_files", "read_input", "row_ids"]
 
 POSITION = "__curate_position"
 
@@ -128,31 +124,3 @@ def file_sha256(path: Path) -> str:
             for block in iter(lambda: handle.read(1 << 20), b""):
                 digest.update(block)
     return digest.hexdigest()
-
-
-def write_run_folder(folder: Path, overwrite: bool, write: Callable[[Path], None]) -> None:
-    """Let ``write`` fill a temporary folder, then put it in place in one rename.
-
-    An existing ``folder`` is replaced only when ``overwrite`` is true; if
-    ``write`` fails, nothing is left behind and any earlier run stays intact.
-    """
-    folder = Path(folder)
-    if folder.exists() and not overwrite:
-        raise UsageError(f"run folder {folder} already exists",
-                         hint="pass --overwrite, set [output] overwrite = true, or choose "
-                              "another --out")
-    folder.parent.mkdir(parents=True, exist_ok=True)
-    tmp = folder.parent / f".{folder.name}.partial-{uuid.uuid4().hex[:8]}"
-    tmp.mkdir()
-    try:
-        write(tmp)
-        if folder.exists():
-            old = folder.parent / f".{folder.name}.old-{uuid.uuid4().hex[:8]}"
-            os.replace(folder, old)
-            os.replace(tmp, folder)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            os.replace(tmp, folder)
-    finally:
-        if tmp.exists():
-            shutil.rmtree(tmp, ignore_errors=True)

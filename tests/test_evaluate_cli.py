@@ -66,7 +66,8 @@ def test_json_on_stdout_has_the_promised_keys(pipeline: Path, capsys) -> None:
 def test_out_folder_holds_evaluation_and_a_report_that_agrees(evaluated: tuple[dict, Path],
                                                              pipeline: Path) -> None:
     result, out = evaluated
-    assert sorted(p.name for p in out.iterdir()) == ["evaluation.json", "report.html"]
+    assert sorted(p.name for p in out.iterdir()) == ["evaluation.json", "report.html",
+                                                    "written-by-curate.json"]
     page = Page.read(out / "report.html")
     assert {"headline", "flow", "classes", "projection", "distances", "evaluation",
             "cautions"} <= set(page.sections)
