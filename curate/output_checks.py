@@ -71,20 +71,20 @@ def _listing(path: Path) -> str:
 def _not_ours(path: Path, folder: bool, owned: Callable[[Path], bool] | None) -> str | None:
     """Why ``path`` may not be replaced, or None when curate wrote it and nothing else is in it."""
     if folder != path.is_dir():
-        return f"it is a {'file' if folder else 'folder'}"
+        return f"it is a {'file' if folder else 'folder'}, not a {'folder' if folder else 'file'} " \
+               "curate wrote"
     if not folder:
         return None if owned is not None and owned(path) else "it is not a file curate wrote"
     try:
         data = json.loads((path / MARKER).read_text(encoding="utf-8"))
     except (OSError, ValueError):
-        return f"it has no {MARKER}"
+        return f"it has no {MARKER}, the mark of a folder curate wrote"
     if not isinstance(data, dict) or data.get("written_by") != "curate":
         return f"its {MARKER} does not name curate"
     listed = {str(name) for name in data.get("files", [])} | {MARKER}
     extra = sorted(e.name for e in path.iterdir() if e.name not in listed)
     if extra:
-        return f"it also holds {', '.join(extra[:5])}{', ...' if len(extra) > 5 else ''}, " \
-               "which curate did not write there"
+        return f"curate did not write {', '.join(extra[:5])}{', ...' if len(extra) > 5 else ''} there"
     return None
 
 
@@ -97,8 +97,8 @@ def _check_parents(path: Path) -> None:
                           "written", hint="choose an output path whose folders are folders")
     read_only = bool(os.statvfs(folder).f_flag & os.ST_RDONLY)
     if read_only or not os.access(folder, os.W_OK | os.X_OK):
-        why = "its file system is read-only" if read_only else "permission denied"
-        raise OutputError(f"cannot write in {folder} ({why}), so not {path}; nothing was written",
+        why = "is on a read-only file system" if read_only else "may not be written (permission denied)"
+        raise OutputError(f"cannot write {path}: {folder} {why}; nothing was written",
                           hint="choose an output path in a folder you can write to")
 
 
@@ -122,7 +122,7 @@ def check_output(target: str | Path, *, overwrite: bool,
     >>> check_output(data, overwrite=True)  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    curate.errors.OutputError: ... was not written by curate (it has no written-by-curate.json)...
+    curate.errors.OutputError: overwrite may not replace ...: it has no written-by-curate.json, ...
     """
     given = Path(os.path.abspath(target))
     path = Path(os.path.realpath(given.parent)) / given.name
@@ -139,8 +139,8 @@ def check_output(target: str | Path, *, overwrite: bool,
                                "replace what curate wrote there before, or choose another path")
     why = _not_ours(path, folder, owned)
     if why is not None:
-        raise OutputError(f"{path} was not written by curate ({why}), so overwrite may not replace "
-                          f"it; it holds {_listing(path)}; nothing was written", hint=_KEEP_HINT)
+        raise OutputError(f"overwrite may not replace {path}: {why}; it holds {_listing(path)}; "
+                          "nothing was written", hint=_KEEP_HINT)
     return path
 
 

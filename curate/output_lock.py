@@ -42,9 +42,9 @@ class Holder:
         Examples
         --------
         >>> Holder(41, "rig-2", "2025-01-01 08:00:00 +0000", "curate run p.toml").describe()
-        'pid 41 on rig-2 (started 2025-01-01 08:00:00 +0000: curate run p.toml)'
+        'pid 41 on rig-2, started 2025-01-01 08:00:00 +0000: curate run p.toml'
         """
-        return f"pid {self.pid} on {self.host} (started {self.started}: {self.command})"
+        return f"pid {self.pid} on {self.host}, started {self.started}: {self.command}"
 
 
 def lock_path(target: Path) -> Path:

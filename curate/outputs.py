@@ -285,7 +285,11 @@ def settle(target: str | Path) -> None:
     if not journal_path(path).exists():
         return
     lock = OutputLock(path)
-    lock.acquire()
+    try:
+        lock.acquire()
+    except OSError as err:
+        raise OutputError(f"cannot finish the interrupted replace of {path}: {err}",
+                          hint=f"run curate where it may write in {path.parent}") from None
     try:
         _tidy(lock, path)
     finally:

@@ -64,7 +64,7 @@ def test_review_never_overwrites_unless_told(enn_run: Path, tmp_path: Path,
     notes.write_text("a reviewer's own notes\n")
     assert main(["review", "--run", str(enn_run), "--out", str(notes), "--overwrite"]) == 2
     err = capsys.readouterr().err
-    assert "was not written by curate" in err and "a reviewer's own notes" in err
+    assert "may not replace" in err and "a reviewer's own notes" in err
     assert notes.read_text() == "a reviewer's own notes\n"
 
 
