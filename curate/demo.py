@@ -10,6 +10,8 @@ import polars as pl
 
 from curate import demo_data
 from curate.methods import METHODS
+from curate.output_checks import check_output
+from curate.outputs import write_marker
 
 __all__ = ["demo_pipeline_text", "fault_catch", "run_demo"]
 
@@ -87,6 +89,10 @@ def run_demo(rows: int = 20000, out: Path = Path("demo"), seed: int = 7, quiet: 
     from curate.api import run
 
     out = Path(out)
+    if not (out.is_dir() and not any(out.iterdir())):
+        check_output(out, overwrite=True)  # replace only an earlier demo folder, never others
+    out.mkdir(parents=True, exist_ok=True)
+    write_marker(out, "demo", ["data", "pumps.toml", "run"])
     paths = demo_data.write(out / "data", rows=rows, seed=seed)
     pipeline = out / "pumps.toml"
     pipeline.write_text(demo_pipeline_text(), encoding="utf-8")

@@ -43,7 +43,7 @@ from curate.output_checks import MARKER, amount, check_output
 from curate.output_lock import OutputLock, sweep_lock_leftovers
 from curate.output_swap import journal_path, kill_point, new_partial, put_in_place, recover, sweep
 
-__all__ = ["Claim", "OutputFile", "claim_output", "settle"]
+__all__ = ["Claim", "OutputFile", "claim_output", "settle", "write_marker"]
 
 
 @dataclass(frozen=True)
@@ -140,9 +140,9 @@ class Claim:
         """Write ``files`` into a new folder with :data:`MARKER`, then put it at the path."""
         partial = self._partial = new_partial(self.path)
         partial.mkdir()
-        _marker(partial, kind, ())
+        write_marker(partial, kind, ())
         self._fill(partial, files)
-        _marker(partial, kind, [f.name for f in files])
+        write_marker(partial, kind, [f.name for f in files])
         self._finish(partial)
 
     def write_file(self, write: Callable[[Path], object], size: int = 0) -> None:
@@ -193,7 +193,18 @@ class Claim:
             self._partial = None
 
 
-def _marker(folder: Path, kind: str, files: Sequence[str]) -> None:
+def write_marker(folder: Path, kind: str, files: Sequence[str]) -> None:
+    """Mark ``folder`` as written by curate: ``overwrite`` may replace it while it holds only
+    ``files`` (and the marker).
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> folder = Path(tempfile.mkdtemp())
+    >>> write_marker(folder, "run", ["kept.parquet"])
+    >>> json.loads((folder / MARKER).read_text())["files"]
+    ['kept.parquet']
+    """
     (folder / MARKER).write_text(json.dumps({
         "written_by": "curate", "kind": kind, "files": list(files),
         "written_at": time.strftime("%Y-%m-%d %H:%M:%S %z"),

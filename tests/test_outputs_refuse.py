@@ -159,3 +159,17 @@ def test_other_writers_refuse_too(data: Path, capsys: pytest.CaptureFixture[str]
     assert "may not replace" in refused(capsys, "diff", "run", "run", "--out",
                                         "data/small.csv", "--overwrite")
     assert snapshot(data.parent) == before
+
+
+def test_demo_writes_only_into_a_new_empty_or_earlier_demo_folder(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """``curate demo --out`` a folder of the user's: exit 2 and the folder stays as it was."""
+    mine = tmp_path / "mine"
+    (mine / "data").mkdir(parents=True)
+    (mine / "pumps.toml").write_text("my own pipeline\n")
+    (mine / "data" / "readings.csv").write_text("my own readings\n")
+    before = snapshot(mine)
+    code = main(["demo", "--out", str(mine), "--quiet"])
+    err = capsys.readouterr().err
+    assert code == 2 and "may not replace" in err and "pumps.toml" in err, err
+    assert snapshot(mine) == before
