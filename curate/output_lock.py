@@ -120,7 +120,12 @@ class OutputLock:
         mine = self.path.with_name(f"{self.path.name}-{uuid.uuid4().hex[:8]}")
         fd = os.open(mine, os.O_CREAT | os.O_EXCL | os.O_RDWR, 0o644)
         try:
-            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            except OSError as err:
+                raise OutputError(f"cannot lock {self.path}: {err.strerror}; the file system "
+                                  "does not support locks; nothing was written",
+                                  hint="choose an output path on a local disk") from None
             os.write(fd, json.dumps(asdict(_me())).encode())
             # Each pass either places the lock, finds a live holder, or saw the lock change
             # hands under it (released or taken over meanwhile), which cannot go on for long.

@@ -13,6 +13,9 @@ decided, so :func:`recover` (run by the next command that touches the path,
 holding its lock) always finishes it. Before the journal exists nothing was
 replaced, and the stray ``.NAME.partial-ID`` is removed by :func:`sweep`.
 
+While an output is claimed, :class:`Signals` makes SIGTERM unwind like
+Ctrl-C, and holds both back during the renames and the clean-up.
+
 The environment variable ``CURATE_TEST_SIGNAL=STEP:SIGNAL`` makes the process
 send itself SIGNAL (``KILL``, ``STOP``, ``TERM`` or ``INT``) at STEP; the kill
 tests use it to stop a real run between two given steps (see :func:`kill_point`).
@@ -25,12 +28,18 @@ import os
 import re
 import shutil
 import signal
+import threading
 import uuid
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
+from types import FrameType
+from typing import Any
 
-from curate.errors import OutputError
+from curate.errors import OutputError, Terminated
 
-__all__ = ["STEPS", "journal_path", "new_partial", "put_in_place", "recover", "sweep", "kill_point"]
+__all__ = ["STEPS", "Signals", "journal_path", "kill_point", "new_partial", "put_in_place", "recover",
+           "sweep"]
 
 STEPS = ("claimed", "writing", "written", "journal", "old-moved", "new-moved", "old-removed")
 
@@ -71,9 +80,10 @@ def new_partial(target: Path) -> Path:
     return target.parent / f".{target.name}.partial-{uuid.uuid4().hex[:8]}"
 
 
-def _remove(path: Path) -> None:
+def _remove(path: Path, tolerant: bool = False) -> None:
+    """Remove a file or folder; ``tolerant`` leaves what cannot be removed to :func:`sweep`."""
     if path.is_dir() and not path.is_symlink():
-        shutil.rmtree(path)
+        shutil.rmtree(path, ignore_errors=tolerant)
     else:
         path.unlink(missing_ok=True)
 
@@ -93,7 +103,7 @@ def put_in_place(partial: Path, target: Path) -> None:
     kill_point("old-moved")
     os.rename(partial, target)
     kill_point("new-moved")
-    _remove(old)
+    _remove(old, tolerant=True)
     kill_point("old-removed")
     journal.unlink()
 
@@ -144,7 +154,7 @@ def recover(target: Path) -> str | None:
     else:
         done = "neither the new nor the previous output was left"
     if old.exists():
-        _remove(old)
+        _remove(old, tolerant=True)
     journal_path(target).unlink()
     return (f"finished the replace of {target} that an interrupted run (pid {pid}) left half "
             f"done: {done}")
@@ -164,3 +174,45 @@ def sweep(target: Path) -> list[str]:
             _remove(entry)
             removed.append(entry.name)
     return removed
+
+
+class Signals:
+    """While a claim is held, SIGTERM unwinds like Ctrl-C (so that the claim is released), and
+    during the final renames both signals wait until the output is in place."""
+
+    def __init__(self) -> None:
+        self.previous: dict[int, Any] = {}
+        self.pending: int | None = None
+        self.deferring = False
+
+    def __enter__(self) -> Signals:
+        # Python runs signal handlers in the main thread only, and only it may set them.
+        if threading.current_thread() is threading.main_thread():
+            for number in (signal.SIGINT, signal.SIGTERM):
+                self.previous[number] = signal.signal(number, self._handle)
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        for number, handler in self.previous.items():
+            signal.signal(number, handler)
+
+    def _handle(self, number: int, frame: FrameType | None) -> None:
+        if self.deferring:
+            self.pending = number
+            return
+        previous = self.previous.get(number)
+        if callable(previous):
+            previous(number, frame)
+        elif previous != signal.SIG_IGN:
+            raise Terminated() if number == signal.SIGTERM else KeyboardInterrupt()
+
+    @contextmanager
+    def deferred(self) -> Iterator[None]:
+        """Hold signals back while the block runs; act on one that came when it ends."""
+        self.deferring = True
+        try:
+            yield
+        finally:
+            self.deferring = False
+            if self.pending is not None:
+                self._handle(self.pending, None)

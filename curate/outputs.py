@@ -27,21 +27,17 @@ import functools
 import json
 import os
 import shutil
-import signal
-import threading
 import time
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from types import FrameType
-from typing import Any
 
-from curate.errors import OutputError, OutputRecovered, Terminated
+from curate.errors import OutputError, OutputRecovered
 from curate.output_checks import MARKER, amount, check_output
 from curate.output_lock import OutputLock, sweep_lock_leftovers
-from curate.output_swap import journal_path, kill_point, new_partial, put_in_place, recover, sweep
+from curate.output_swap import Signals, journal_path, kill_point, new_partial, put_in_place, recover, sweep
 
 __all__ = ["Claim", "OutputFile", "claim_output", "settle", "write_marker"]
 
@@ -85,52 +81,34 @@ def _test_disk_limit(written: Path) -> None:
         raise OSError(errno.ENOSPC, f"{os.strerror(errno.ENOSPC)} (CURATE_TEST_DISK_BYTES={limit})")
 
 
-class _Signals:
-    """While a claim is held, SIGTERM unwinds like Ctrl-C (so that the claim is released), and
-    during the final renames both signals wait until the output is in place."""
+class _Progress:
+    """How far the writing of an output got, for the full-disk message."""
 
-    def __init__(self) -> None:
-        self.previous: dict[int, Any] = {}
-        self.pending: int | None = None
-        self.deferring = False
+    def __init__(self, partial: Path, files: Sequence[OutputFile]) -> None:
+        self.partial = partial
+        self.files = files
+        self.count = 0
+        self.done = 0
 
-    def __enter__(self) -> _Signals:
-        # Python runs signal handlers in the main thread only, and only it may set them.
-        if threading.current_thread() is threading.main_thread():
-            for number in (signal.SIGINT, signal.SIGTERM):
-                self.previous[number] = signal.signal(number, self._handle)
-        return self
+    def wrote(self) -> None:
+        """One more file is complete."""
+        _test_disk_limit(self.partial)
+        self.count += 1
+        self.done = _size(self.partial)
+        kill_point("writing")
 
-    def __exit__(self, *exc: object) -> None:
-        for number, handler in self.previous.items():
-            signal.signal(number, handler)
+    def current(self) -> str:
+        return self.files[self.count].name if self.count < len(self.files) else MARKER
 
-    def _handle(self, number: int, frame: FrameType | None) -> None:
-        if self.deferring:
-            self.pending = number
-            return
-        previous = self.previous.get(number)
-        if callable(previous):
-            previous(number, frame)
-        elif previous != signal.SIG_IGN:
-            raise Terminated() if number == signal.SIGTERM else KeyboardInterrupt()
-
-    @contextmanager
-    def deferred(self) -> Iterator[None]:
-        """Hold signals back while the block runs; act on one that came when it ends."""
-        self.deferring = True
-        try:
-            yield
-        finally:
-            self.deferring = False
-            if self.pending is not None:
-                self._handle(self.pending, None)
+    def needed(self) -> int:
+        """Bytes complete so far plus the sizes expected of the files still to write."""
+        return self.done + sum(f.size for f in self.files[self.count:])
 
 
 class Claim:
     """The exclusive right to write one output path, given by :func:`claim_output`."""
 
-    def __init__(self, path: Path, signals: _Signals) -> None:
+    def __init__(self, path: Path, signals: Signals) -> None:
         self.path = path
         self.written = False
         self._signals = signals
@@ -139,42 +117,41 @@ class Claim:
     def write_folder(self, files: Sequence[OutputFile], kind: str = "run") -> None:
         """Write ``files`` into a new folder with :data:`MARKER`, then put it at the path."""
         partial = self._partial = new_partial(self.path)
-        partial.mkdir()
-        write_marker(partial, kind, ())
-        self._fill(partial, files)
-        write_marker(partial, kind, [f.name for f in files])
+        with self._room(partial, files) as progress:
+            partial.mkdir()
+            write_marker(partial, kind, ())
+            for item in files:
+                item.write(partial / item.name)
+                progress.wrote()
+            write_marker(partial, kind, [f.name for f in files])
         self._finish(partial)
 
     def write_file(self, write: Callable[[Path], object], size: int = 0) -> None:
         """Let ``write`` write a new file, then put it at the path."""
         partial = self._partial = new_partial(self.path)
-        self._fill(partial, [OutputFile(self.path.name, write, size)], single=True)
+        with self._room(partial, [OutputFile(self.path.name, write, size)]) as progress:
+            write(partial)
+            progress.wrote()
         self._finish(partial)
 
-    def _fill(self, partial: Path, files: Sequence[OutputFile], single: bool = False) -> None:
-        done = 0
-        for index, item in enumerate(files):
-            try:
-                item.write(partial if single else partial / item.name)
-                _test_disk_limit(partial)
-            except Exception as err:
-                if not _disk_full(err):
-                    raise
-                raise self._full(partial, item.name,
-                                 done + sum(f.size for f in files[index:])) from None
-            done += _size(partial if single else partial / item.name)
-            kill_point("writing")
-
-    def _full(self, partial: Path, name: str, needed: int) -> OutputError:
-        written = _size(partial)
-        self.discard()
-        free = shutil.disk_usage(self.path.parent).free
-        return OutputError(f"the disk holding {self.path.parent} is full: writing {name} failed "
-                           f"after {amount(written)}; the output needs about "
-                           f"{amount(max(needed, written))} and {amount(free)} are free; "
-                           "nothing was written",
-                           hint="free that much space there, or choose an output path on another "
-                                "disk")
+    @contextmanager
+    def _room(self, partial: Path, files: Sequence[OutputFile]) -> Iterator[_Progress]:
+        """Turn a full disk into a clean failure that says how much space the output needs."""
+        progress = _Progress(partial, files)
+        try:
+            yield progress
+        except Exception as err:
+            if not _disk_full(err):
+                raise
+            written = _size(partial)
+            self.discard()
+            needed = max(progress.needed(), written)
+            free = shutil.disk_usage(self.path.parent).free
+            raise OutputError(f"the disk holding {self.path.parent} is full: writing "
+                              f"{progress.current()} failed after {amount(written)}; the output "
+                              f"needs about {amount(needed)} and {amount(free)} are free; nothing "
+                              "was written", hint="free that much space there, or choose an "
+                                                  "output path on another disk") from None
 
     def _finish(self, partial: Path) -> None:
         kill_point("written")
@@ -258,7 +235,7 @@ def claim_output(target: str | Path, *, overwrite: bool,
     """
     path = check_output(target, overwrite=overwrite, inputs=inputs, folder=folder, owned=owned)
     lock = OutputLock(path)
-    with _Signals() as signals:
+    with Signals() as signals:
         claim = Claim(path, signals)
         made: list[Path] = []
         try:
@@ -274,15 +251,16 @@ def claim_output(target: str | Path, *, overwrite: bool,
             kill_point("claimed")
             yield claim
         finally:
-            try:
-                claim.discard()
-            finally:
-                lock.release()
-                for folder_made in made if not claim.written else ():
-                    try:
-                        folder_made.rmdir()
-                    except OSError:
-                        break
+            with signals.deferred():
+                try:
+                    claim.discard()
+                finally:
+                    lock.release()
+                    for folder_made in made if not claim.written else ():
+                        try:
+                            folder_made.rmdir()
+                        except OSError:
+                            break
 
 
 def settle(target: str | Path) -> None:
