@@ -141,7 +141,7 @@ def _parser() -> argparse.ArgumentParser:
     p = sub.add_parser("run", help="run a pipeline file and write a run folder")
     p.add_argument("pipeline")
     p.add_argument("--out", help="run folder (default: [output] folder)")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing run folder")
+    p.add_argument("--overwrite", action="store_true", help="replace a run folder curate wrote")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")

@@ -500,7 +500,7 @@ def register(sub: Any) -> None:
                    "'fault') to score the removals against")
     p.add_argument("--seed", type=int, default=0, help="seed of the folds and the flips")
     p.add_argument("--out", metavar="FOLDER", help="write evaluation.json and report.html here")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing --out folder")
+    p.add_argument("--overwrite", action="store_true", help="replace an --out folder curate wrote")
     p.add_argument("--json", action="store_true", help="print the evaluation as JSON on stdout")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(func=_command)

@@ -202,14 +202,14 @@ def register(sub: Any) -> None:
     p = sub.add_parser("review", help="write a run's removed rows to a CSV for a reviewer to mark")
     p.add_argument("--run", required=True, help="the run folder")
     p.add_argument("--out", default="review.csv", help="the CSV to write (default: review.csv)")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing file")
+    p.add_argument("--overwrite", action="store_true", help="replace a review file curate wrote")
     p.set_defaults(func=cmd_review)
     p = sub.add_parser("diff", help="list the rows whose fate changed between two runs")
     p.add_argument("run_a")
     p.add_argument("run_b")
     p.add_argument("--json", action="store_true", help="print the changes as JSON on stdout")
     p.add_argument("--out", help="also write the changes to this CSV file")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing --out file")
+    p.add_argument("--overwrite", action="store_true", help="replace an --out file curate wrote")
     p.set_defaults(func=cmd_diff)
 
 
