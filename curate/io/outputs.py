@@ -64,9 +64,10 @@ class OutputFile:
 
 
 def _size(path: Path) -> int:
+    """Bytes the disk gives to ``path`` (whole blocks, as a full disk counts them)."""
     if not path.is_dir():
-        return path.stat().st_size if path.exists() else 0
-    return sum(f.stat().st_size for f in path.rglob("*") if f.is_file())
+        return path.stat().st_blocks * 512 if path.exists() else 0
+    return sum(f.stat().st_blocks * 512 for f in path.rglob("*") if f.is_file())
 
 
 def _disk_full(err: BaseException) -> bool:
@@ -101,8 +102,10 @@ class _Progress:
         return self.files[self.count].name if self.count < len(self.files) else MARKER
 
     def needed(self) -> int:
-        """Bytes complete so far plus the sizes expected of the files still to write."""
-        return self.done + sum(f.size for f in self.files[self.count:])
+        """Bytes complete so far plus those expected of the files still to write, in whole
+        blocks of the disk."""
+        block = os.statvfs(self.partial.parent).f_frsize or 4096
+        return self.done + sum(-(-f.size // block) * block for f in self.files[self.count:])
 
 
 class Claim:

@@ -14,6 +14,7 @@ import pytest
 from output_fixtures import curate_run, leftovers, resume, rows_in, start, wait_stopped, write_tables
 
 from curate.api import run
+from curate.cli import main
 
 
 @pytest.fixture
@@ -22,15 +23,17 @@ def folder(tmp_path: Path) -> Path:
     return tmp_path
 
 
-def test_second_run_fails_at_once_and_names_the_first(folder: Path) -> None:
-    """While run A holds the path, run B (even with --overwrite) stops with exit 2 naming A's
-    pid and replaces nothing; once A has finished, B's overwrite replaces A's folder."""
+def test_second_run_fails_at_once_and_names_the_first(
+        folder: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """While run A (another process) holds the path, run B (here, even with --overwrite) stops
+    with exit 2 naming A's pid and replaces nothing; once A has finished, an overwrite
+    replaces A's folder."""
     first = start(["run", "small.toml", "--quiet"], folder, signal_at="claimed:STOP")
     wait_stopped(first)
     assert (folder / ".run.lock").is_file()
-    second = curate_run(["run", "large.toml", "--quiet", "--overwrite"], folder)
-    assert second.returncode == 2, second.stderr
-    assert f"pid {first.pid}" in second.stderr and "Traceback" not in second.stderr
+    assert main(["run", str(folder / "large.toml"), "--quiet", "--overwrite"]) == 2
+    err = capsys.readouterr().err
+    assert f"pid {first.pid}" in err and "Traceback" not in err
     assert not (folder / "run").exists()
     code, err = resume(first)
     assert code == 0, err
@@ -40,18 +43,18 @@ def test_second_run_fails_at_once_and_names_the_first(folder: Path) -> None:
     assert leftovers(folder) == []
 
 
-def test_stale_lock_and_stray_partial_of_a_killed_run_are_cleared(folder: Path) -> None:
+def test_stale_lock_and_stray_partial_of_a_killed_run_are_cleared(
+        folder: Path, capsys: pytest.CaptureFixture[str]) -> None:
     """A run killed while writing leaves its lock and a partial folder; the next run at that
-    path takes the lock over, removes the partial, says both, and writes the folder."""
+    path (here) takes the lock over, removes the partial, says both, and writes the folder."""
     killed = curate_run(["run", "small.toml", "--quiet"], folder, signal_at="writing:KILL")
     assert killed.returncode == -9
     left = leftovers(folder)
     assert ".run.lock" in left and any(n.startswith(".run.partial-") for n in left), left
     assert not (folder / "run").exists()
-    nxt = curate_run(["run", "small.toml", "--quiet"], folder)
-    assert nxt.returncode == 0, nxt.stderr
-    assert "took over the lock" in nxt.stderr and "no longer running" in nxt.stderr
-    assert ".run.partial-" in nxt.stderr
+    assert main(["run", str(folder / "small.toml"), "--quiet"]) == 0
+    err = capsys.readouterr().err
+    assert "took over the lock" in err and "no longer running" in err and ".run.partial-" in err
     assert leftovers(folder) == [] and rows_in(folder / "run") == 60
 
 
