@@ -1,7 +1,10 @@
 """Every bad input fails with a clear message, the right exit code and no run folder.
 
 Exit codes are our contract (README): 2 bad usage or pipeline file, 3 input failed
-its schema or cannot be used, 4 a safety limit stopped the run.
+its schema or cannot be used, 4 a safety limit stopped the run. What a clean failure
+looks like is common practice, no source (the convention of command-line tools): a
+non-zero exit code, a message on stderr that names the problem and its fix, no
+traceback, and no partial output left behind.
 """
 
 from __future__ import annotations
@@ -21,6 +24,9 @@ def run_cli(pipeline: Path, capsys: pytest.CaptureFixture[str]) -> tuple[int, st
 
 
 def assert_clean_failure(pipeline: Path, code: int, err: str, expected: int, *words: str) -> None:
+    # Common practice, no source: the code says which kind of failure (README's table), the
+    # message names what and where and ends with a hint, there is no traceback, and neither
+    # the run folder nor a partial one is left behind.
     assert code == expected, err
     assert "hint:" in err, err
     for word in words:

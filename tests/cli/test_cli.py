@@ -1,6 +1,7 @@
 """The `curate` command end to end: run, why, check, methods, demo.
 
-Run-folder contract from DESIGN.md; file contents read back with polars (outside reference).
+Run-folder contract as DEVELOPERS.md states it ("Contracts the tests hold"); file contents
+read back with polars (outside reference).
 """
 
 from __future__ import annotations

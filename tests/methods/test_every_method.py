@@ -1,4 +1,12 @@
-"""Shared checks run against every registered method (STYLE.md rule 8).
+"""Shared checks run against every registered method (DEVELOPERS.md, "Contracts the tests hold").
+
+Each test asserts one of them: kept and removed positions partition the input and every
+removal is explained with the method's own reason codes; the same seed gives the same
+result; rows that may not be removed stay; single-class, tiny and empty inputs give a
+defined result or a clear error (a curate error with a hint); a run keeps the input's
+columns, types and values at the kept ids, and its kept and removed ids partition the
+input. These invariants are common practice, no source; the values are compared with
+polars' own reading of the input file (outside reference).
 
 Data: scikit-learn's bundled wine set, range-normalised with scikit-learn's MinMaxScaler,
 with seeded 10% label flips (open data shipped in a package).
@@ -96,11 +104,24 @@ def test_tiny_input_is_defined(key):
         assert "hint" in str(err)
         return
     assert sel.n == 2
+    assert sorted([*sel.kept.tolist(), *sel.removed.tolist()]) == [0, 1]
+
+
+@pytest.mark.parametrize("key", list(METHODS))
+def test_empty_input_is_defined(key):
+    space = Space.from_matrix(np.zeros((0, 2)))
+    try:
+        sel = call(key, space, np.array([], dtype=np.int64))
+    except CurateError as err:
+        assert "hint" in str(err)
+        return
+    assert sel.n == 0 and len(sel.reason) == 0
 
 
 @pytest.mark.parametrize("key", list(METHODS))
 def test_types_are_preserved_through_a_run(key, tmp_path, wine):
-    """Kept and removed rows have the input's own columns and types (polars reads them back)."""
+    """Kept and removed rows have the input's own columns, types and values at their ids, and
+    their ids partition the input (polars reads the input back as the reference)."""
     X, y = wine
     frame = pl.DataFrame(X[:, :4], schema=["a", "b", "c", "d"]).with_columns(
         pl.Series("flag", np.arange(len(y)) % 2 == 0), pl.Series("y", y.astype(np.int64)))
@@ -109,3 +130,8 @@ def test_types_are_preserved_through_a_run(key, tmp_path, wine):
     result = run({"input": {"path": "t.parquet", "label": "y"}, "stages": [stage]}, base=tmp_path)
     for part in (result.kept, result.removed):
         assert part.select(frame.columns).schema == frame.schema
+    given = pl.read_parquet(tmp_path / "t.parquet")
+    ids = sorted([*result.kept["row_id"].to_list(), *result.removed["row_id"].to_list()])
+    assert ids == list(range(given.height)), "kept and removed ids partition the input"
+    at_ids = given.with_row_index("row_id").filter(pl.col("row_id").is_in(result.kept["row_id"]))
+    assert result.kept.select(frame.columns).equals(at_ids.select(frame.columns))

@@ -1,9 +1,10 @@
 """Random small tables and random pipelines keep the run's invariants.
 
-Invariants are the contract in DESIGN.md: kept and removed ids partition the input, the
-audit has one row per removed id, kept rows equal the input rows at those ids, and the
-same input, pipeline and seed give the same result. The input rows are compared with
-polars' own reading of the CSV (outside reference for "untouched").
+Invariants are the contract in DEVELOPERS.md ("Contracts the tests hold"): kept and
+removed ids partition the input, the audit has one row per removed id, kept rows equal
+the input rows at those ids, and the same input, pipeline and seed give the same result.
+The input rows are compared with polars' own reading of the CSV (outside reference for
+"untouched").
 """
 
 from __future__ import annotations
