@@ -4,12 +4,14 @@ Every error says what failed, where (file, key, column, class, first row ids
 and a count) and ends with a hint for the fix. The CLI prints
 ``ErrorType: message`` and exits with the class's ``exit_code``:
 
-* 2 :class:`UsageError`, :class:`PipelineFileError`, :class:`NeighbourCountError`;
+* 2 :class:`UsageError`, :class:`PipelineFileError`, :class:`NeighbourCountError`,
+  :class:`OutputError`;
 * 3 :class:`InputError`, :class:`SchemaFailure`;
 * 4 :class:`SafetyLimitError`;
 * 1 :class:`ClusterError`, and anything that is not a :class:`CurateError` (a bug).
 
-Warnings derive from :class:`CurateWarning`; the CLI prints them as
+A run stopped by SIGTERM unwinds like Ctrl-C (:class:`Terminated`, exit 143;
+Ctrl-C exits with 130). Warnings derive from :class:`CurateWarning`; the CLI prints them as
 ``warning: message`` and goes on. This module imports nothing but the standard
 library, so every layer may use it.
 """

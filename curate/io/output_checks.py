@@ -14,6 +14,7 @@ from __future__ import annotations
 import glob
 import json
 import os
+import re
 from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -26,6 +27,7 @@ if TYPE_CHECKING:
 __all__ = ["MARKER", "amount", "check_output", "check_overlap", "spec_inputs"]
 
 MARKER = "written-by-curate.json"
+_WORKING = re.compile(r"\.(.+)\.(?:lock(?:-[0-9a-f]{8})?|(?:partial|old)-[0-9a-f]{8}|swap\.json(?:\.tmp)?)")
 _KEEP_HINT = ("curate replaces only what it wrote itself; choose a new output path, or move "
               "this one away yourself")
 
@@ -82,10 +84,18 @@ def _not_ours(path: Path, folder: bool, owned: Callable[[Path], bool] | None) ->
     if not isinstance(data, dict) or data.get("written_by") != "curate":
         return f"its {MARKER} does not name curate"
     listed = {str(name) for name in data.get("files", [])} | {MARKER}
-    extra = sorted(e.name for e in path.iterdir() if e.name not in listed)
+    extra = sorted(e.name for e in path.iterdir()
+                   if e.name not in listed and not _working_name(e.name, listed))
     if extra:
         return f"curate did not write {', '.join(extra[:5])}{', ...' if len(extra) > 5 else ''} there"
     return None
+
+
+def _working_name(name: str, listed: set[str]) -> bool:
+    """Whether ``name`` is curate's own lock, partial, old or journal name of a listed entry
+    (left there by a run into a folder inside this one, such as the demo's run folder)."""
+    found = _WORKING.fullmatch(name)
+    return found is not None and found.group(1) in listed
 
 
 def _check_parents(path: Path) -> None:

@@ -18,7 +18,8 @@ import pytest
 from output_fixtures import write_tables
 
 from curate.cli import main
-from curate.io.output_checks import MARKER
+from curate.errors import OutputError
+from curate.io.output_checks import MARKER, check_output
 
 
 def snapshot(folder: Path) -> dict[str, str]:
@@ -173,3 +174,18 @@ def test_demo_writes_only_into_a_new_empty_or_earlier_demo_folder(
     err = capsys.readouterr().err
     assert code == 2 and "may not replace" in err and "pumps.toml" in err, err
     assert snapshot(mine) == before
+
+
+def test_leftovers_of_an_inner_output_do_not_make_a_folder_foreign(tmp_path: Path) -> None:
+    """A demo folder lists ``run``; the lock and partial names a killed run into ``run`` left
+    beside it are curate's own, so the folder may still be replaced; a file of the user's
+    may not."""
+    demo = tmp_path / "demo"
+    (demo / "run").mkdir(parents=True)
+    (demo / MARKER).write_text('{"written_by": "curate", "kind": "demo", "files": ["run"]}')
+    (demo / ".run.lock").write_text("{}")
+    (demo / ".run.partial-0a1b2c3d").mkdir()
+    assert check_output(demo, overwrite=True) == demo.resolve()
+    (demo / ".run.notes").write_text("mine\n")
+    with pytest.raises(OutputError, match=r"curate did not write \.run\.notes"):
+        check_output(demo, overwrite=True)
