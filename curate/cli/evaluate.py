@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 from collections.abc import Sequence
+from pathlib import Path
 from typing import Any
 
 from curate.errors import UsageError
@@ -72,10 +73,16 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
     from curate.pipeline.prepare import prepare
     from curate.spec import load_spec
 
+    ks = parse_ks(args.k)
+    if args.truth is not None and not Path(args.truth).exists():
+        raise UsageError(f"--truth {args.truth} does not exist",
+                         hint="give the table of known faulty rows (CSV or Parquet, with the "
+                              "input's id column and 'fault'); a relative path starts where "
+                              "curate runs, not at the pipeline file")
     with Reporter(args.quiet) as say:
         prep = prepare(load_spec(args.pipeline))
         result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
-                                   ks=parse_ks(args.k), model=args.model,
+                                   ks=ks, model=args.model,
                                    model_params=parse_model_params(args.model_param),
                                    inject_noise=args.inject_noise,
                                    noise_towards=args.noise_towards, truth=args.truth,
