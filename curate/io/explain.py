@@ -6,6 +6,7 @@ starts without the numeric libraries the run needed.
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 from typing import Any
 
@@ -34,8 +35,19 @@ def explain(run: Path, row_id: str) -> str:
     kept = pl.read_parquet(run / "kept.parquet", columns=["row_id"])
     if _same_id(kept["row_id"], row_id).any():
         return f"row {row_id} was kept: no stage removed it."
-    raise UsageError(f"row {row_id} is not in the run {run}",
-                     hint="give a row id from the input (the id column, or the 0-based position)")
+    raise UsageError(f"row {row_id} is not in the run {run}", hint=_id_hint(run, kept["row_id"]))
+
+
+def _id_hint(run: Path, kept_ids: pl.Series) -> str:
+    """What a row id of this run looks like: values of its id column, or input positions."""
+    summary = run / "summary.json"
+    id_column = json.loads(summary.read_text(encoding="utf-8")).get("id") \
+        if summary.is_file() else None
+    examples = ", ".join(str(v) for v in kept_ids.head(3).to_list())
+    if id_column:
+        return (f"this run's row ids are the values of the input's id column {id_column!r} "
+                f"(kept rows include {examples}), not positions")
+    return (f"this run's row ids are 0-based input positions (kept rows include {examples})")
 
 
 def _removal_text(rec: dict[str, Any]) -> str:
