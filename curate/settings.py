@@ -14,7 +14,6 @@ This module imports no numeric library, so reading settings stays light.
 
 from __future__ import annotations
 
-import difflib
 import math
 import os
 from collections.abc import Callable, Mapping
@@ -73,6 +72,8 @@ def suggest(value: Any, known: tuple[Any, ...] | list[Any]) -> str:
     >>> suggest("zzz", ["name", "method"])
     ''
     """
+    import difflib  # only when a word is misspelled: `curate --help` stays light
+
     words = [str(k) for k in known]
     close = difflib.get_close_matches(str(value).casefold(), words, n=1, cutoff=0.6)
     return f"; did you mean {close[0]!r}?" if close else ""
