@@ -33,6 +33,10 @@ def _check_options(args: argparse.Namespace) -> None:
         raise UsageError(f"--backend {backend} is not a neighbour engine" + suggest(backend,
                                                                                    BACKENDS),
                          hint=f"use one of: {', '.join(BACKENDS)}")
+    target = getattr(args, "recall_target", None)
+    if target is not None and not 0.0 < target <= 1.0:
+        raise UsageError(f"--recall-target {target} is not a share",
+                         hint="give a number above 0 and at most 1, for example 0.99")
 
 
 def load_with_options(args: argparse.Namespace) -> Spec:
@@ -47,9 +51,6 @@ def load_with_options(args: argparse.Namespace) -> Spec:
     if getattr(args, "backend", None):
         engine = replace(engine, backend=canonical(args.backend, BACKENDS) or args.backend)
     if getattr(args, "recall_target", None) is not None:
-        if not 0.0 < args.recall_target <= 1.0:
-            raise UsageError(f"--recall-target {args.recall_target} is not a share",
-                             hint="give a number above 0 and at most 1, for example 0.99")
         engine = replace(engine, recall_target=args.recall_target)
     if getattr(args, "cluster", None):
         engine = replace(engine, cluster_address=args.cluster)

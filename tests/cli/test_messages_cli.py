@@ -132,3 +132,12 @@ def test_missing_required_parameter_points_at_the_stage(make_pipeline, two_blobs
     err = capsys.readouterr().err
     assert_plain_message(err, where=str(path))
     assert "stage 1: parameter 'radius' is required" in err
+
+
+def test_audit_details_say_one_neighbour_in_the_singular(two_blobs):
+    # kDN (Smith, Martinez and Giraud-Carrier 2014) with k = 1: row 2 (x = 0.2, label b) has
+    # label-a rows on both sides at 0.1, so its one nearest neighbour disagrees (kDN = 1).
+    sampler = Sampler(method="hardness", k=1, threshold=1.0)
+    sampler.fit_resample(two_blobs.select("x"), two_blobs["y"])
+    detail = dict(zip(sampler.audit_["row_id"], sampler.audit_["detail"], strict=True))
+    assert detail[2].startswith("1 of its 1 nearest neighbour has another label")
