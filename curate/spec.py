@@ -67,6 +67,11 @@ class _Where:
                 return number
         return None
 
+    def here(self, table: str, key: str | None) -> str:
+        """File and line only, for messages that name the key themselves."""
+        line = self.line(table, key)
+        return self.source + (f", line {line}" if line else "")
+
     def at(self, table: str, key: str | None = None, index: int = 0, name_key: bool = True) -> str:
         """File, line of ``key`` and the place, e.g. ``p.toml, line 6: stage 1 key 'k'``."""
         line = self.line(table, key, index)
@@ -181,8 +186,9 @@ def _space(where: _Where, data: Mapping[str, Any]) -> SpaceSettings:
     try:  # the checks that span keys; each key alone was checked above, with its line
         return SpaceSettings(scale=scale, distance=distance, missing=missing,
                              weights=weights)  # type: ignore[arg-type]
-    except PipelineFileError as err:
-        raise PipelineFileError(f"{where.at('space')}: {err.message}", hint=err.hint) from None
+    except PipelineFileError as err:  # its message names [space] already: give the line only
+        raise PipelineFileError(f"{where.here('space', None)}: {err.message}",
+                                hint=err.hint) from None
 
 
 def _classes(where: _Where, body: Mapping[str, Any], index: int) -> str | tuple[Any, ...]:
@@ -257,8 +263,9 @@ def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
             raise UsageError(f"[cluster] address {address!r} is not an address",
                              hint="write a scheduler address such as \"tcp://10.0.0.5:8786\", "
                                   "or \"local:2\"")
-    except UsageError as err:
-        _fail(where, "cluster", "address", err.message, str(err.hint))
+    except UsageError as err:  # its message names [cluster] address already: give the line only
+        raise PipelineFileError(f"{where.here('cluster', 'address')}: {err.message}",
+                                hint=err.hint) from None
     for key, low in (("partitions", 1), ("retries", 0), ("block_rows", 1)):
         value = _get(where, "cluster", data, key, int, None)
         if value is not None and value < low:

@@ -285,3 +285,15 @@ def test_evaluate_missing_truth_names_the_option(make_pipeline, two_blobs, capsy
     err = capsys.readouterr().err
     assert_clean_failure(path, code, err, 2, "--truth nope.csv", "does not exist")
     assert "[input]" not in err
+
+
+@pytest.mark.parametrize(("extra", "words"), [
+    ({"space": {"scale": "zscore", "distance": "heom"}}, ("line 6", "contradicts")),
+    ({"cluster": {"address": "local:0"}}, ("line 7", "'local:0'")),
+])
+def test_checks_across_keys_say_file_and_line_once(make_pipeline, two_blobs, capsys, extra,
+                                                   words):
+    path = make_pipeline(two_blobs, ENN, extra=extra)
+    code, err = run_cli(path, capsys)
+    assert_clean_failure(path, code, err, 2, *words)
+    assert err.count("[space]") + err.count("[cluster]") == 1, err
