@@ -223,11 +223,14 @@ def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], 
 
 
 def _check_ks(rows: int, folds: int, ks: Sequence[int]) -> None:
-    """Refuse a k larger than the smallest training part, before any fold runs."""
-    train = rows - -(-rows // folds)  # stratified test folds hold at most ceil(rows / folds) rows
+    """Refuse a k larger than every training part, before any fold runs.
+
+    Up to the largest part a k is served: where a part is smaller, all its rows vote.
+    """
+    train = rows - rows // folds  # stratified test folds hold at least floor(rows / folds) rows
     if ks and max(ks) > train:
         raise UsageError(f"--k {max(ks)} asks for more neighbours than the {train} training rows "
-                         f"of a fold ({rows} rows, {folds} folds)",
+                         f"a fold has at most ({rows} rows, {folds} folds)",
                          hint=f"use k values up to {train}, such as --k 1,3,5")
 
 
