@@ -76,13 +76,19 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
     from curate.pipeline.prepare import prepare
     from curate.spec import load_spec
 
+    ks = parse_ks(args.k)
+    if args.truth is not None and not Path(args.truth).exists():
+        raise UsageError(f"--truth {args.truth} does not exist",
+                         hint="give the table of known faulty rows (CSV or Parquet, with the "
+                              "input's id column and 'fault'); a relative path starts where "
+                              "curate runs, not at the pipeline file")
     spec = load_spec(args.pipeline)
     reads = spec_inputs(spec) + ([("the fault table", Path(args.truth))] if args.truth else [])
     out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
     with Reporter(args.quiet) as say, out or nullcontext() as claim:
         prep = prepare(spec)
         result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
-                                   ks=parse_ks(args.k), model=args.model,
+                                   ks=ks, model=args.model,
                                    model_params=parse_model_params(args.model_param),
                                    inject_noise=args.inject_noise,
                                    noise_towards=args.noise_towards, truth=args.truth,

@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 import polars as pl
 
-from curate.errors import InputError, UsageError
+from curate.errors import InputError, UsageError, quoted
 from curate.evaluation import stats
 from curate.evaluation.models import estimator, knn_votes, metrics, stack
 from curate.evaluation.stats import KNN, FoldOutcome, Key
@@ -183,6 +183,10 @@ def read_faults(path: str | Path, prep: Prepared) -> np.ndarray:
     The table (CSV or Parquet) needs the input's id column (``row_id`` when the
     input has none) and a ``fault`` column; one row per faulty input row.
     """
+    if not Path(path).exists():
+        raise UsageError(f"truth file {path} (--truth) does not exist",
+                         hint="give the table of known faulty rows: CSV or Parquet with the "
+                              "input's id column and 'fault'")
     table = read_input(Path(path))
     id_column = prep.spec.input.id or "row_id"
     missing = [c for c in (id_column, "fault") if c not in table.columns]
@@ -210,13 +214,25 @@ def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], 
     values, counts = np.unique(prep.space_labels.astype(str), return_counts=True)
     if counts.min() < folds:
         small = values[np.argmin(counts)]
-        raise UsageError(f"{prep.spec.input.path}: class {small!r} has {counts.min()} rows, fewer "
+        raise UsageError(f"{prep.spec.input.path}: class {quoted(small)} has {counts.min()} rows, fewer "
                          f"than the {folds} folds, so some test folds would lack it",
                          hint=f"use --folds {max(2, int(counts.min()))} or fewer"
                               if counts.min() >= 2 else "give that class more rows")
     if towards is not None and str(towards) not in values.tolist():
         raise UsageError(f"--noise-towards {towards!r} is not a class of the input",
                          hint=f"use one of: {', '.join(values.tolist()[:10])}")
+
+
+def _check_ks(rows: int, folds: int, ks: Sequence[int]) -> None:
+    """Refuse a k larger than every training part, before any fold runs.
+
+    Up to the largest part a k is served: where a part is smaller, all its rows vote.
+    """
+    train = rows - rows // folds  # stratified test folds hold at least floor(rows / folds) rows
+    if ks and max(ks) > train:
+        raise UsageError(f"--k {max(ks)} asks for more neighbours than the {train} training rows "
+                         f"a fold has at most ({rows} rows, {folds} folds)",
+                         hint=f"use k values up to {train}, such as --k 1,3,5")
 
 
 def _valid_frame(prep: Prepared) -> pl.DataFrame:
@@ -233,6 +249,7 @@ def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,
     from sklearn.model_selection import StratifiedKFold
 
     _check_request(prep, folds, repeats, ks, inject_noise, noise_towards)
+    _check_ks(len(prep.space_labels), folds, ks)
     params = dict(model_params or {})
     if model is not None:
         estimator(model, params, seed)  # a bad name or parameter fails before any fold runs
