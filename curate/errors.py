@@ -74,8 +74,12 @@ class SchemaFailure(InputError):
         self.failures = failures
 
 
-class SafetyLimitError(CurateError):
-    """A safety limit stopped the run before anything was written (exit code 4)."""
+class SafetyLimitError(CurateError, ValueError):
+    """A safety limit stopped the run before anything was written (exit code 4).
+
+    Also a ``ValueError``, as scikit-learn raises for data it cannot accept, so
+    that code around :class:`curate.Sampler` may catch it as such.
+    """
 
     exit_code = 4
 
