@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import time
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
@@ -28,12 +29,17 @@ def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) 
 
 def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | None = None,
         overwrite: bool | None = None, write: bool = False, base: str | Path = ".",
-        progress: Callable[[str], None] | None = None) -> RunResult:
+        progress: Callable[[str], None] | None = None, started: float | None = None) -> RunResult:
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
     (paths relative to ``base``) or a checked :class:`~curate.settings.Spec`.
     Nothing is written unless ``write`` is true or ``out`` is given.
+
+    The summary's ``seconds`` times the stages; ``total_seconds`` the whole
+    run from ``started`` (a :func:`time.perf_counter` value, such as the
+    start of a command; default: this call) until the result is ready or,
+    when writing, until the kept, removed and audit tables are written.
 
     Examples
     --------
@@ -46,19 +52,23 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     >>> result.summary["rows_removed"], result.audit["kept_as"].to_list()
     (1, [4])
     """
+    started = time.perf_counter() if started is None else started
     spec = _as_spec(pipeline, base)
     result = execute(prepare(spec), progress=progress)
+    result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
     if write or out is not None:
         folder = Path(out) if out is not None else spec.output.folder
         write_result(result, folder, spec.output.overwrite if overwrite is None else overwrite,
-                     report=spec.output.report)
+                     report=spec.output.report, started=started)
     return result
 
 
-def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
+def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True,
+                 started: float | None = None) -> None:
     """Write kept, removed, audit, summary and report into ``folder`` atomically.
 
-    The files are those of :data:`curate.io.folder.RUN_FILES`.
+    The files are those of :data:`curate.io.folder.RUN_FILES`. With ``started``,
+    the summary's ``total_seconds`` is measured again once the tables are written.
     """
 
     def fill(tmp: Path) -> None:
@@ -67,6 +77,8 @@ def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool 
         result.audit.write_parquet(tmp / "audit.parquet")
         if result.spared is not None:
             result.spared.write_parquet(tmp / "protected.parquet")
+        if started is not None:
+            result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
         (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, default=str) + "\n")
         if report:
             (tmp / "report.html").write_text(render_run(result), encoding="utf-8")
