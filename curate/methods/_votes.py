@@ -6,9 +6,12 @@ instead of importing another family.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from curate.methods.base import SelectionBuilder
+from curate.neighbours.calls import recording
 from curate.neighbours.search import kneighbors, radius_neighbors
 from curate.space.points import Space
 
@@ -39,13 +42,15 @@ def tie_notes(space: Space, positions: np.ndarray, distances: np.ndarray,
     the first of them; the note says how many others there were. The check
     is cheap: one search for the (k+1)-th neighbour of these rows only, and a
     radius count at the k-th distance only for rows where the two are equal.
+    Both are exact (also in a stage that uses the approximate engine) and stay
+    out of the stage's engine summary, since they only word the evidence.
 
     Examples
     --------
     Row 0 has rows 1, 2 and 3 at distance 1 and a vote of k = 1:
 
     >>> s = Space.from_matrix([[0.0, 0.0], [1.0, 0.0], [0.0, 1.0], [-1.0, 0.0], [5.0, 6.0]])
-    >>> tie_notes(s, np.array([0, 4]), np.array([[1.0], [7.07]]))
+    >>> tie_notes(s, np.array([0, 4]), np.array([[1.0], [np.sqrt(50.0)]]))
     ['; its nearest neighbour is tied with 2 other rows at distance 1; the first by input \
 position was used', '']
     """
@@ -55,14 +60,20 @@ position was used', '']
     size = space.n if reference is None else len(reference)
     if len(positions) == 0 or k == 0 or size - 1 <= k:
         return notes
-    wider, _ = kneighbors(space, k + 1, queries=positions, reference=reference)
-    tied = np.flatnonzero(wider[:, k] <= wider[:, k - 1])
-    kth = wider[:, k - 1]
-    for radius in np.unique(kth[tied]):
-        group = tied[kth[tied] == radius]
-        _, within = radius_neighbors(space, float(radius), queries=positions[group],
-                                     reference=reference)
-        for i, found in zip(group, within, strict=True):
+    if space.engine.backend == "approximate":
+        space = replace(space, engine=replace(space.engine, backend="auto"))  # exact facts
+    # These searches only word the evidence: they stay out of the stage's engine summary.
+    with recording():
+        wider, _ = kneighbors(space, k + 1, queries=positions, reference=reference)
+        kth = wider[:, k - 1]
+        # Where an approximate search listed another k-th distance, the exact tie is not its.
+        tied = np.flatnonzero((wider[:, k] <= kth) & (kth == distances[:, k - 1]))
+        counted = [(group, radius_neighbors(space, float(radius), queries=positions[group],
+                                            reference=reference)[1])
+                   for radius in np.unique(kth[tied]) for group in [tied[kth[tied] == radius]]]
+    for group, found_lists in counted:
+        radius = float(kth[group[0]])
+        for i, found in zip(group, found_lists, strict=True):
             others = max(len(found), k + 1) - k
             which = "its nearest neighbour" if k == 1 else f"its {_ordinal(k)} nearest neighbour"
             notes[i] = (f"; {which} is tied with {others} other row{'' if others == 1 else 's'} "
