@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import time
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
@@ -29,7 +30,7 @@ def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) 
 
 def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | None = None,
         overwrite: bool | None = None, write: bool = False, base: str | Path = ".",
-        progress: Callable[[str], None] | None = None) -> RunResult:
+        progress: Callable[[str], None] | None = None, started: float | None = None) -> RunResult:
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
@@ -37,6 +38,11 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     Nothing is written unless ``write`` is true or ``out`` is given; then the
     output folder is checked and claimed before the work starts (see
     :mod:`curate.io.outputs`).
+
+    The summary's ``seconds`` times the stages; ``total_seconds`` the whole
+    run from ``started`` (a :func:`time.perf_counter` value, such as the
+    start of a command; default: this call) until the result is ready or,
+    when writing, until the kept, removed and audit tables are written.
 
     Examples
     --------
@@ -49,23 +55,30 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     >>> result.summary["rows_removed"], result.audit["kept_as"].to_list()
     (1, [4])
     """
+    started = time.perf_counter() if started is None else started
     spec = _as_spec(pipeline, base)
     if not write and out is None:
-        return execute(prepare(spec), progress=progress)
+        result = execute(prepare(spec), progress=progress)
+        result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
+        return result
     with claim_output(Path(out) if out is not None else spec.output.folder,
                       overwrite=spec.output.overwrite if overwrite is None else overwrite,
                       inputs=spec_inputs(spec)) as claim:
         result = execute(prepare(spec), progress=progress)
-        write_result(result, claim, report=spec.output.report)
+        write_result(result, claim, report=spec.output.report, started=started)
     return result
 
 
-def write_result(result: RunResult, claim: Claim, report: bool = True) -> None:
+def write_result(result: RunResult, claim: Claim, report: bool = True,
+                 started: float | None = None) -> None:
     """Write kept, removed, audit, summary and report as the run folder ``claim`` holds.
 
     The files are those of :data:`curate.io.folder.RUN_FILES`, each with its
-    size in memory (for the message of a full disk).
+    size in memory (for the message of a full disk). With ``started``, the
+    summary's ``total_seconds`` is measured once the tables are ready to write.
     """
+    if started is not None:
+        result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
     frames = [("kept.parquet", result.kept), ("removed.parquet", result.removed),
               ("audit.parquet", result.audit), ("protected.parquet", result.spared)]
     files = [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))

@@ -23,6 +23,7 @@ from curate.settings import (
     MISSING_POLICIES,
     ON_INVALID,
     SCALES,
+    STAGE_KEYS,
     ClusterSettings,
     ColumnRule,
     EngineSettings,
@@ -39,8 +40,6 @@ from curate.settings import (
 )
 
 __all__ = ["load_spec", "spec_from_dict"]
-
-STAGE_KEYS = ("name", "method", "max_removed_share", "classes", "seed")
 
 
 class _Where:
@@ -230,14 +229,16 @@ def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
         params = check_params(info, given, where=where.at("stages", bad, index, name_key=False))
     except UsageError as err:
         raise PipelineFileError(err.message, hint=err.hint) from None
-    share = _get(where, "stages", body, "max_removed_share", float, 0.5, index=index)
+    default_share, keep_every_class = info.default_limit()
+    share = _get(where, "stages", body, "max_removed_share", float, default_share, index=index)
     if not 0.0 <= share <= 1.0:
         _fail(where, "stages", "max_removed_share", f"got {share!r}",
               "use a share from 0.0 to 1.0 (1.0 switches the limit off)", index)
     seed = _get(where, "stages", body, "seed", int, None, index=index)
     return StageSettings(name=_get(where, "stages", body, "name", str, f"{index + 1}: {key}", index=index),
                          method=key, params=params, max_removed_share=share,
-                         classes=_classes(where, body, index), seed=seed)
+                         classes=_classes(where, body, index), seed=seed,
+                         keep_every_class=keep_every_class and "max_removed_share" not in body)
 
 
 def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:

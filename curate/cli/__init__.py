@@ -7,7 +7,9 @@ print is built in :mod:`.render`. Only the standard library and curate's
 light modules are imported until a command runs, so ``curate --help`` starts
 fast. Only curate's own errors are caught: they print ``error: message`` and
 the ``hint:`` line, and exit with the error's code. Warnings are printed once
-each, after the command, and not at all with ``--quiet``.
+each, after the command, and not at all with ``--quiet`` — except what curate did
+to a path it had written before (a finished or undone replace, a dead run's lock
+taken over), which is said whatever the options.
 """
 
 from __future__ import annotations
@@ -18,7 +20,7 @@ import warnings
 from collections.abc import Sequence
 
 from curate.cli import demo, evaluate, lookup, pipeline, review
-from curate.errors import CurateError
+from curate.errors import CurateError, OutputRecovered
 
 __all__ = ["main"]
 
@@ -35,12 +37,13 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _print_warnings(caught: list[warnings.WarningMessage]) -> None:
+def _print_warnings(caught: list[warnings.WarningMessage], quiet: bool) -> None:
     """Each distinct warning once: folds and repeated fits raise the same one many times."""
     seen: set[str] = set()
     for item in caught:
         text = str(item.message)
-        if issubclass(item.category, UserWarning) and text not in seen:
+        shown = issubclass(item.category, OutputRecovered) or not quiet
+        if shown and issubclass(item.category, UserWarning) and text not in seen:
             seen.add(text)
             print(f"warning: {text}", file=sys.stderr)
 
@@ -54,8 +57,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             try:
                 return int(args.func(args))
             finally:
-                if not getattr(args, "quiet", False):
-                    _print_warnings(caught)
+                _print_warnings(caught, bool(getattr(args, "quiet", False)))
     except CurateError as err:
         print(f"error: {err}", file=sys.stderr)
         return err.exit_code

@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import time
 from dataclasses import replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -60,6 +61,7 @@ def load_with_options(args: argparse.Namespace) -> Spec:
 
 def cmd_run(args: argparse.Namespace) -> int:
     """Handler of ``curate run``."""
+    started = time.perf_counter()
     from curate.api import run
     from curate.cli.progress import Reporter
     from curate.cli.render import summary_text
@@ -68,11 +70,11 @@ def cmd_run(args: argparse.Namespace) -> int:
     out = Path(args.out) if args.out else spec.output.folder
     with Reporter(args.quiet) as say:
         result = run(spec, out=out, overwrite=args.overwrite or spec.output.overwrite,
-                     progress=say)
+                     progress=say, started=started)
     if args.json:
         print(json.dumps(result.summary, indent=2, default=str))
     elif not args.quiet:
-        print(summary_text(result.summary, out), file=sys.stderr)
+        print(summary_text(result.summary, out, time.perf_counter() - started), file=sys.stderr)
     return 0
 
 

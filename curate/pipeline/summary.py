@@ -70,6 +70,7 @@ def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
         "params": _jsonable(dict(out.stage.params)),
         "classes": _jsonable(out.stage.classes),
         "max_removed_share": out.stage.max_removed_share,
+        "keep_every_class": out.stage.keep_every_class,
         "rows_in": out.rows_in,
         "removed": len(sel.removed),
         "kept": len(sel.kept),

@@ -3,8 +3,9 @@
 ``distance`` picks how columns are embedded (see :mod:`curate.space.columns`):
 
 * ``"euclidean"`` / ``"manhattan"``: numeric columns scaled by ``scale`` (range to
-  [0, 1] by default, or z-score, or robust); nominal columns one-hot, scaled so
-  that two different values are at distance 1 (the overlap metric).
+  [0, 1] by default, or z-score, or robust, or ``"none"``: as they are); nominal
+  columns one-hot, scaled so that two different values are at distance 1 (the
+  overlap metric).
 * ``"heom"``: Wilson and Martinez's HEOM, numeric by range, nominal by overlap.
 * ``"hvdm"``: their HVDM, numeric by four standard deviations, nominal by VDM
   (needs the labels).

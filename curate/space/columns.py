@@ -184,7 +184,8 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
 
     ``scale`` is ``"range"`` (divide by max - min), ``"zscore"`` (by the
     standard deviation), ``"robust"`` (by the interquartile range, centred on the
-    median) or ``"4sd"`` (by four standard deviations, as in HVDM). Standard
+    median), ``"4sd"`` (by four standard deviations, as in HVDM) or ``"none"``
+    (the values as they are, for pre-scaled features and embeddings). Standard
     deviations are population ones (ddof 0) over the present values of the
     ``fit`` rows (all rows when None); the other rows are scaled with them.
 
@@ -195,6 +196,8 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
     [0.0, 0.5, 1.0]
     >>> encode_numeric(c, "range", np.array([True, True, False])).ravel().tolist()
     [0.0, 1.0, 2.0]
+    >>> encode_numeric(c, "none").ravel().tolist()
+    [0.0, 5.0, 10.0]
     """
     source = ~column.gaps if fit is None else ~column.gaps & fit
     present = column.values[source]
@@ -202,7 +205,10 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
     if len(present) == 0:
         _warn_constant(column.name, fit)
         return out
-    if scale == "range":
+    if scale == "none":
+        # Unscaled, but a column with one value still contributes nothing: say so.
+        low, span = 0.0, (1.0 if present.max() > present.min() else 0.0)
+    elif scale == "range":
         low, span = present.min(), present.max() - present.min()
     elif scale == "robust":
         q1, low, q3 = np.percentile(present, [25, 50, 75])
