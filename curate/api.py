@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import json
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -18,22 +18,26 @@ from curate.spec import load_spec, spec_from_dict
 __all__ = ["run", "write_result"]
 
 
-def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
+def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path,
+             trust_code: Iterable[str | Path]) -> Spec:
     if isinstance(pipeline, Spec):
         return pipeline
     if isinstance(pipeline, Mapping):
-        return spec_from_dict(pipeline, base=base)
-    return load_spec(pipeline)
+        return spec_from_dict(pipeline, base=base, trust_code=trust_code)
+    return load_spec(pipeline, trust_code=trust_code)
 
 
 def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | None = None,
         overwrite: bool | None = None, write: bool = False, base: str | Path = ".",
-        progress: Callable[[str], None] | None = None) -> RunResult:
+        progress: Callable[[str], None] | None = None,
+        trust_code: Iterable[str | Path] = ()) -> RunResult:
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
     (paths relative to ``base``) or a checked :class:`~curate.settings.Spec`.
-    Nothing is written unless ``write`` is true or ``out`` is given.
+    Nothing is written unless ``write`` is true or ``out`` is given. A schema
+    module loads only from the pipeline file's folder (``base`` for a
+    dictionary) or from the folders and modules named in ``trust_code``.
 
     Examples
     --------
@@ -46,7 +50,7 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     >>> result.summary["rows_removed"], result.audit["kept_as"].to_list()
     (1, [4])
     """
-    spec = _as_spec(pipeline, base)
+    spec = _as_spec(pipeline, base, trust_code)
     result = execute(prepare(spec), progress=progress)
     if write or out is not None:
         folder = Path(out) if out is not None else spec.output.folder

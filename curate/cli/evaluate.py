@@ -7,6 +7,7 @@ import json
 from collections.abc import Sequence
 from typing import Any
 
+from curate.cli.pipeline import add_trust_option
 from curate.errors import UsageError
 from curate.settings import K_GRID
 
@@ -73,7 +74,7 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
     from curate.spec import load_spec
 
     with Reporter(args.quiet) as say:
-        prep = prepare(load_spec(args.pipeline))
+        prep = prepare(load_spec(args.pipeline, trust_code=args.trust_code))
         result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
                                    ks=parse_ks(args.k), model=args.model,
                                    model_params=parse_model_params(args.model_param),
@@ -100,6 +101,7 @@ def add_commands(sub: Any) -> None:
     p = sub.add_parser("evaluate", help="measure, without leakage, what curation does to "
                        "classification (cross-validation; stages run on training folds only)")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.add_argument("--folds", type=int, default=10, help="stratified folds (default 10)")
     p.add_argument("--repeats", type=int, default=1, help="repeat with seeds seed, seed+1, ...")
     p.add_argument("--k", help="k values of the kNN classifier, such as 1,3,5, or 'grid' "
