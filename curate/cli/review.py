@@ -26,12 +26,13 @@ def cmd_diff(args: argparse.Namespace) -> int:
     from curate.cli.render import diff_text
     from curate.io.diff import diff_runs
     from curate.io.folder import write_new_file
+    from curate.io.spreadsheet import spreadsheet_safe
 
     diff = diff_runs(args.run_a, args.run_b)
     if diff.warning:
         print(f"warning: {diff.warning}", file=sys.stderr)
     if args.out:
-        write_new_file(Path(args.out), args.overwrite, diff.changes.write_csv)
+        write_new_file(Path(args.out), args.overwrite, spreadsheet_safe(diff.changes).write_csv)
     print(json.dumps(diff.to_json(), indent=2, default=str) if args.json else diff_text(diff))
     return 0
 
