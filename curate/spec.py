@@ -374,10 +374,13 @@ def load_spec(path: str | Path, *, trust_code: Iterable[str | Path] = ()) -> Spe
         raise PipelineFileError(f"pipeline file {path} does not exist",
                                 hint="check the path, or run `curate demo` to see a working "
                                      "pipeline file")
-    raw = path.read_bytes()
     try:
+        raw = path.read_bytes()
         text = raw.decode("utf-8")
         data = tomllib.loads(text)
+    except OSError as err:
+        raise PipelineFileError(f"pipeline file {path} cannot be read: {err.strerror}",
+                                hint="check the file's permissions") from None
     except (UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
         raise PipelineFileError(f"pipeline file {path} is not valid TOML: {err}",
                                 hint="fix the syntax at the line named; strings need quotes") from None
