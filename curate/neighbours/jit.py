@@ -61,8 +61,10 @@ def compiled(**options: Any) -> Callable[[F], F]:
         if CACHING:
             try:
                 return numba.njit(cache=True, **options)(func)  # type: ignore[no-any-return]
-            except RuntimeError:  # this module's folder, unlike the probe's, is not writable
-                warnings.warn(_NO_CACHE, CurateWarning, stacklevel=2)
+            except RuntimeError:
+                # No source file (a doctest) or a folder numba cannot write, unlike the probe's:
+                # this kernel alone compiles uncached, which says nothing about the others.
+                pass
         return numba.njit(**options)(func)  # type: ignore[no-any-return]
 
     return wrap
