@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -20,17 +20,19 @@ from curate.spec import load_spec, spec_from_dict
 __all__ = ["run", "write_result"]
 
 
-def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
+def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path,
+             trust_code: Iterable[str | Path]) -> Spec:
     if isinstance(pipeline, Spec):
         return pipeline
     if isinstance(pipeline, Mapping):
-        return spec_from_dict(pipeline, base=base)
-    return load_spec(pipeline)
+        return spec_from_dict(pipeline, base=base, trust_code=trust_code)
+    return load_spec(pipeline, trust_code=trust_code)
 
 
 def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | None = None,
         overwrite: bool | None = None, write: bool = False, base: str | Path = ".",
-        progress: Callable[[str], None] | None = None, started: float | None = None) -> RunResult:
+        progress: Callable[[str], None] | None = None, started: float | None = None,
+        trust_code: Iterable[str | Path] = ()) -> RunResult:
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
@@ -43,6 +45,8 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     run from ``started`` (a :func:`time.perf_counter` value, such as the
     start of a command; default: this call) until the result is ready or,
     when writing, until the kept, removed and audit tables are written.
+    A schema module loads only from the pipeline file's folder (``base`` for
+    a dictionary) or from the folders and modules named in ``trust_code``.
 
     Examples
     --------
@@ -56,7 +60,7 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     (1, [4])
     """
     started = time.perf_counter() if started is None else started
-    spec = _as_spec(pipeline, base)
+    spec = _as_spec(pipeline, base, trust_code)
     if not write and out is None:
         result = execute(prepare(spec), progress=progress)
         result.summary["total_seconds"] = round(time.perf_counter() - started, 4)

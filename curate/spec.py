@@ -8,12 +8,13 @@ from __future__ import annotations
 
 import hashlib
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 from curate.errors import PipelineFileError, UsageError
+from curate.io.trust import TrustedCode, refusal, trusted_code
 from curate.methods import METHODS
 from curate.settings import (
     BACKENDS,
@@ -40,6 +41,9 @@ from curate.settings import (
 )
 
 __all__ = ["load_spec", "spec_from_dict"]
+
+# The audit's stage name for rows the schema quarantined; no stage may take it.
+QUARANTINE_STAGE = "schema"
 
 
 class _Where:
@@ -109,6 +113,16 @@ def _get(where: _Where, table: str, data: Mapping[str, Any], key: str, kind: typ
     return value if choices is None else canonical(value, choices)
 
 
+def _path(where: _Where, table: str, key: str, base: Path, value: str) -> Path:
+    """``base / value`` resolved, with a clear error for a symbolic-link loop."""
+    try:
+        return (base / value).resolve()
+    except (OSError, RuntimeError) as err:  # pathlib raises RuntimeError on a link loop
+        _fail(where, table, key, f"names {value!r}, which cannot be resolved: {err}",
+              "fix the path, or the symbolic links on it (one of them points back to itself)")
+        raise
+
+
 def _columns(where: _Where, data: Mapping[str, Any]) -> tuple[ColumnRule, ...]:
     rules = []
     for name, body in data.items():
@@ -130,7 +144,8 @@ def _columns(where: _Where, data: Mapping[str, Any]) -> tuple[ColumnRule, ...]:
     return tuple(rules)
 
 
-def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
+def _input(where: _Where, data: Mapping[str, Any], base: Path,
+           trusted: TrustedCode) -> InputSettings:
     keys = ("path", "label", "id", "ignore", "features", "schema", "on_invalid", "columns",
             "protect", "protect_file")
     _known(where, "input", data, keys)
@@ -141,20 +156,22 @@ def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
     features = _get(where, "input", data, "features", list, None)
     protect_file = _get(where, "input", data, "protect_file", str, None)
     return InputSettings(
-        path=(base / _get(where, "input", data, "path", str, "")).resolve(),
+        path=_path(where, "input", "path", base, _get(where, "input", data, "path", str, "")),
         label=_get(where, "input", data, "label", str, ""),
         id=_get(where, "input", data, "id", str, None),
         ignore=tuple(_get(where, "input", data, "ignore", list, [])),
         features=tuple(features) if features is not None else None,
-        schema=_schema_ref(where, data, base),
+        schema=_schema_ref(where, data, base, trusted),
         on_invalid=_get(where, "input", data, "on_invalid", str, "stop", ON_INVALID),
         columns=_columns(where, _get(where, "input", data, "columns", dict, {})),
         protect=tuple(_get(where, "input", data, "protect", list, [])),
-        protect_file=(base / protect_file).resolve() if protect_file else None,
+        protect_file=_path(where, "input", "protect_file", base, protect_file)
+        if protect_file else None,
     )
 
 
-def _schema_ref(where: _Where, data: Mapping[str, Any], base: Path) -> str | None:
+def _schema_ref(where: _Where, data: Mapping[str, Any], base: Path,
+                trusted: TrustedCode) -> str | None:
     ref = _get(where, "input", data, "schema", str, None)
     if ref is None:
         return None
@@ -163,7 +180,10 @@ def _schema_ref(where: _Where, data: Mapping[str, Any], base: Path) -> str | Non
         _fail(where, "input", "schema", f"got {ref!r}",
               "write it as \"path/to/file.py:ClassName\" or \"package.module:ClassName\"")
     if module.endswith(".py"):
-        module = str((base / module).resolve())
+        module = str(_path(where, "input", "schema", base, module))
+    problem = refusal(module, _path(where, "input", "schema", base, "."), trusted)
+    if problem:
+        _fail(where, "input", "schema", *problem)
     return f"{module}:{cls}"
 
 
@@ -241,6 +261,26 @@ def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
                          keep_every_class=keep_every_class and "max_removed_share" not in body)
 
 
+def _check_names(where: _Where, bodies: list[Any], stages: tuple[StageSettings, ...]) -> None:
+    """Stage names tell the stages apart in the audit: refuse empty, repeated or reserved ones."""
+    seen: dict[str, int] = {}
+    for index, (body, stage) in enumerate(zip(bodies, stages, strict=True)):
+        key = "name" if "name" in body else None
+        name = " ".join(stage.name.split()).casefold()
+        if not name:
+            _fail(where, "stages", key, "has an empty name",
+                  "give every stage a name of its own (the audit's stage column shows it)", index)
+        if name == QUARANTINE_STAGE:
+            _fail(where, "stages", key, f"is named {stage.name!r}, the audit's name for rows the "
+                  "schema quarantined", "give the stage another name", index)
+        if name in seen:
+            _fail(where, "stages", key, f"has the same name as stage {seen[name] + 1}: "
+                  f"{stage.name!r} (names are compared ignoring case and extra spaces)",
+                  "give every stage a name of its own, so that the audit can tell them apart",
+                  index)
+        seen[name] = index
+
+
 def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:
     _known(where, "run", data, ("seed", "backend", "memory_mb", "recall_target"))
     memory = _get(where, "run", data, "memory_mb", int, 1024)
@@ -280,8 +320,12 @@ def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
 
 
 def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: str = "<dict>",
-                   text: str = "") -> Spec:
+                   text: str = "", trust_code: Iterable[str | Path] = ()) -> Spec:
     """Check a pipeline given as a dictionary (the parsed TOML) and fill defaults.
+
+    ``base`` is the folder relative paths start from, and the one folder a
+    schema module may load from unless ``trust_code`` names more folders or
+    modules (see :mod:`curate.io.trust`).
 
     Examples
     --------
@@ -312,12 +356,15 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
     output = dict(data.get("output", {}))
     _known(where, "output", output, ("folder", "overwrite", "scores", "report"))
     cluster = _cluster(where, dict(data.get("cluster", {})))
+    checked = tuple(_stage(where, dict(body), i) for i, body in enumerate(stages))
+    _check_names(where, stages, checked)
+    folder = _get(where, "output", output, "folder", str, "runs/latest")
     return Spec(
-        input=_input(where, dict(data["input"]), base),
+        input=_input(where, dict(data["input"]), base, trusted_code(trust_code)),
         space=_space(where, dict(data.get("space", {}))),
-        stages=tuple(_stage(where, dict(body), i) for i, body in enumerate(stages)),
+        stages=checked,
         output=OutputSettings(
-            folder=(base / _get(where, "output", output, "folder", str, "runs/latest")).resolve(),
+            folder=_path(where, "output", "folder", base, folder),
             overwrite=_get(where, "output", output, "overwrite", bool, False),
             scores=_get(where, "output", output, "scores", bool, True),
             report=_get(where, "output", output, "report", bool, True),
@@ -330,8 +377,11 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
     )
 
 
-def load_spec(path: str | Path) -> Spec:
+def load_spec(path: str | Path, *, trust_code: Iterable[str | Path] = ()) -> Spec:
     """Read and check a pipeline file.
+
+    A schema module (``[input] schema``) is code: it may load only from the
+    pipeline file's folder, or from the folders and modules in ``trust_code``.
 
     Examples
     --------
@@ -346,12 +396,16 @@ def load_spec(path: str | Path) -> Spec:
         raise PipelineFileError(f"pipeline file {path} does not exist",
                                 hint="check the path, or run `curate demo` to see a working "
                                      "pipeline file")
-    raw = path.read_bytes()
     try:
+        raw = path.read_bytes()
         text = raw.decode("utf-8")
         data = tomllib.loads(text)
+    except OSError as err:
+        raise PipelineFileError(f"pipeline file {path} cannot be read: {err.strerror}",
+                                hint="check the file's permissions") from None
     except (UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
         raise PipelineFileError(f"pipeline file {path} is not valid TOML: {err}",
                                 hint="fix the syntax at the line named; strings need quotes") from None
-    spec = spec_from_dict(data, base=path.parent, source=str(path), text=text)
+    spec = spec_from_dict(data, base=path.parent, source=str(path), text=text,
+                          trust_code=trust_code)
     return replace(spec, sha256=hashlib.sha256(raw).hexdigest())

@@ -20,7 +20,7 @@ from curate.settings import BACKENDS, canonical, suggest
 if TYPE_CHECKING:
     from curate.settings import Spec
 
-__all__ = ["add_commands", "load_with_options"]
+__all__ = ["add_commands", "add_trust_option", "load_with_options"]
 
 
 def _check_options(args: argparse.Namespace) -> None:
@@ -45,7 +45,7 @@ def load_with_options(args: argparse.Namespace) -> Spec:
     from curate.spec import load_spec
 
     _check_options(args)
-    spec = load_spec(args.pipeline)
+    spec = load_spec(args.pipeline, trust_code=getattr(args, "trust_code", None) or ())
     engine = spec.run.engine
     if getattr(args, "memory_mb", None) is not None:
         engine = replace(engine, memory_mb=args.memory_mb)
@@ -110,10 +110,19 @@ def cmd_distances(args: argparse.Namespace) -> int:
     return 0
 
 
+def add_trust_option(parser: argparse.ArgumentParser) -> None:
+    """``--trust-code``, on every command that reads a pipeline file."""
+    parser.add_argument("--trust-code", action="append", default=[], metavar="DIR_OR_MODULE",
+                        help="a folder or an installed module the pipeline file's schema module "
+                             "may load from, besides the pipeline file's folder (repeatable); "
+                             "a schema module is code and runs with your rights")
+
+
 def add_commands(sub: Any) -> None:
     """Add ``run``, ``check`` and ``distances`` to the CLI's subparsers."""
     p = sub.add_parser("run", help="run a pipeline file and write a run folder")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.add_argument("--out", help="run folder (default: [output] folder)")
     p.add_argument("--overwrite", action="store_true", help="replace a run folder curate wrote")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
@@ -127,9 +136,11 @@ def add_commands(sub: Any) -> None:
     p.set_defaults(func=cmd_run)
     p = sub.add_parser("check", help="check the pipeline file and the input, select nothing")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.set_defaults(func=cmd_check)
     p = sub.add_parser("distances", help="nearest-neighbour distances, to choose a near-copy radius")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.add_argument("--radius", type=float, nargs="+", action="extend", metavar="R",
                    help="candidate radii to try: --radius 0.05 0.1 (or the option repeated)")
     p.add_argument("--json", action="store_true")

@@ -26,7 +26,7 @@ from __future__ import annotations
 import json
 import time
 import warnings
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -307,7 +307,8 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
              ks: Sequence[int] = K_GRID, model: str | None = None,
              model_params: Mapping[str, Any] | None = None, inject_noise: float = 0.0,
              noise_towards: Any = None, truth: str | Path | None = None, seed: int = 0,
-             progress: Callable[[str], None] | None = None) -> dict[str, Any]:
+             progress: Callable[[str], None] | None = None,
+             trust_code: Iterable[str | Path] = ()) -> dict[str, Any]:
     """Measure, without leakage, what the pipeline's curation does to classification.
 
     Parameters
@@ -331,6 +332,9 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
         flipped rows.
     seed : int
         Seed of the folds and of the label flips.
+    trust_code : folders and module names, optional
+        Where the pipeline file's schema module may load from besides the
+        pipeline file's folder (as ``--trust-code``; see :mod:`curate.io.trust`).
 
     Returns
     -------
@@ -356,7 +360,7 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
     0.333
     """
     if not isinstance(spec, Spec):
-        spec = load_spec(spec)
+        spec = load_spec(spec, trust_code=trust_code)
     return evaluate_prepared(prepare(spec), folds=folds, repeats=repeats, ks=ks, model=model,
                              model_params=model_params, inject_noise=inject_noise,
                              noise_towards=noise_towards, truth=truth, seed=seed,

@@ -10,6 +10,7 @@ import numpy as np
 import polars as pl
 
 from curate.errors import InputError, PipelineFileError, UsageError, first_ids
+from curate.io.globbing import glob_files, unique_files
 
 __all__ = ["file_sha256", "input_files", "read_input", "row_ids"]
 
@@ -18,6 +19,9 @@ POSITION = "__curate_position"
 
 def input_files(path: Path) -> list[Path]:
     """Resolve a file, a folder of Parquet/CSV files or a glob to a sorted list of files.
+
+    Each real file is listed once, however many links lead to it (a glob
+    through a symbolic-link loop included: see :mod:`curate.io.globbing`).
 
     Examples
     --------
@@ -28,10 +32,10 @@ def input_files(path: Path) -> list[Path]:
       hint: fix [input] path in the pipeline file (relative paths start at the pipeline file's folder)
     """
     text = str(path)
-    if any(ch in text for ch in "*?["):
-        files = sorted(Path(p) for p in glob.glob(text, recursive=True) if Path(p).is_file())
+    if glob.has_magic(text):
+        files = glob_files(text)
     elif path.is_dir():
-        files = sorted(p for p in path.iterdir() if p.suffix in (".parquet", ".csv") and p.is_file())
+        files = unique_files(sorted(p for p in path.iterdir() if p.suffix in (".parquet", ".csv")))
     elif path.is_file():
         files = [path]
     else:

@@ -2,12 +2,8 @@
 
 from __future__ import annotations
 
-import importlib
-import importlib.util
-import sys
 from collections.abc import Collection
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -15,6 +11,7 @@ import pandera.polars as pa
 import polars as pl
 
 from curate.errors import InputError, PipelineFileError, SchemaFailure, first_ids
+from curate.io.trust import import_schema_module
 from curate.settings import ColumnRule, InputSettings
 
 __all__ = ["Validation", "describe_failures", "feature_kinds", "load_model", "rules_schema",
@@ -39,29 +36,24 @@ class Validation:
 
 
 def load_model(ref: str) -> pa.DataFrameSchema:
-    """Load a pandera model or schema from ``path/to/file.py:Name`` or ``package.module:Name``."""
+    """Load a pandera model or schema from ``path/to/file.py:Name`` or ``package.module:Name``.
+
+    Whether the pipeline file may name that module is decided before, when the
+    file is read (:mod:`curate.io.trust`); here it is imported, with clean errors.
+    """
     module_ref, _, name = ref.rpartition(":")
-    try:
-        if module_ref.endswith(".py"):
-            path = Path(module_ref)
-            if not path.is_file():
-                raise PipelineFileError(f"schema file {path} does not exist",
-                                        hint="fix [input] schema = \"path/to/file.py:ClassName\"")
-            spec = importlib.util.spec_from_file_location(f"curate_schema_{path.stem}", path)
-            assert spec is not None and spec.loader is not None
-            module = importlib.util.module_from_spec(spec)
-            sys.modules[spec.name] = module
-            spec.loader.exec_module(module)
-        else:
-            module = importlib.import_module(module_ref)
-    except ImportError as err:
-        raise PipelineFileError(f"cannot import schema module {module_ref!r}: {err}",
-                                hint="fix [input] schema, or the import inside that file") from None
+    module = import_schema_module(module_ref)
     model = getattr(module, name, None)
     if model is None:
         raise PipelineFileError(f"schema module {module_ref!r} has no {name!r}",
                                 hint="fix the class name after the colon in [input] schema")
-    schema = model.to_schema() if hasattr(model, "to_schema") else model
+    try:
+        schema = model.to_schema() if hasattr(model, "to_schema") else model
+    except Exception as err:  # pandera checks the model's fields here, and user code runs
+        raise PipelineFileError(f"schema {ref} cannot be turned into a pandera schema: "
+                                f"{type(err).__name__}: {err}",
+                                hint="fix the model's fields (see pandera's DataFrameModel "
+                                     "documentation)") from None
     if not isinstance(schema, pa.DataFrameSchema):
         raise PipelineFileError(f"{ref} is not a pandera polars model or schema",
                                 hint="subclass pandera.polars.DataFrameModel")
@@ -86,6 +78,7 @@ def rules_schema(settings: InputSettings) -> pa.DataFrameSchema:
 
     Examples
     --------
+    >>> from pathlib import Path
     >>> from curate.settings import InputSettings, ColumnRule
     >>> s = rules_schema(InputSettings(Path("x.csv"), "y", columns=(ColumnRule("a", "float", 0, 1),)))
     >>> sorted(s.columns)

@@ -32,7 +32,7 @@ def run_folder(tmp_path_factory: pytest.TempPathFactory) -> Path:
                     {"name": "near copies", "method": "near-duplicates", "radius": 0.02},
                     {"name": "mislabels", "method": "enn", "k": 3,
                      "max_removed_share": 0.9}],
-         "run": {"seed": 3}}, base=folder, out=folder / "run")
+         "run": {"seed": 3}}, base=folder, out=folder / "run", trust_code=[SCHEMA.parent])
     return folder / "run"
 
 
