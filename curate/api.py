@@ -7,6 +7,7 @@ from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
+from curate.io.batches import batch_rows, write_rows
 from curate.io.folder import write_run_folder
 from curate.pipeline.loop import execute
 from curate.pipeline.prepare import prepare
@@ -15,7 +16,7 @@ from curate.report.html import render_run
 from curate.settings import Spec
 from curate.spec import load_spec, spec_from_dict
 
-__all__ = ["run", "write_result"]
+__all__ = ["run", "write_result", "write_selection"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
@@ -58,12 +59,13 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
 def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
     """Write kept, removed, audit, summary and report into ``folder`` atomically.
 
-    The files are those of :data:`curate.io.folder.RUN_FILES`.
+    The files are those of :data:`curate.io.folder.RUN_FILES`. Kept and
+    removed rows are streamed from the input in batches sized by ``[run]
+    memory_mb`` (see :mod:`curate.io.batches`).
     """
 
     def fill(tmp: Path) -> None:
-        result.kept.write_parquet(tmp / "kept.parquet")
-        result.removed.write_parquet(tmp / "removed.parquet")
+        write_selection(result, tmp)
         result.audit.write_parquet(tmp / "audit.parquet")
         if result.spared is not None:
             result.spared.write_parquet(tmp / "protected.parquet")
@@ -72,3 +74,16 @@ def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool 
             (tmp / "report.html").write_text(render_run(result), encoding="utf-8")
 
     write_run_folder(folder, overwrite, fill)
+
+
+def write_selection(result: RunResult, folder: Path,
+                    on_batch: Callable[[int], None] | None = None) -> None:
+    """Write ``kept.parquet`` and ``removed.parquet`` into ``folder``, batch by batch.
+
+    ``on_batch`` is called with the row count of every batch written.
+    """
+    frame = result.rows_frame()
+    mask = result.kept_mask
+    rows = batch_rows(frame, result.prepared.spec.run.engine.memory_mb)
+    write_rows(frame, mask, folder / "kept.parquet", rows, on_batch)
+    write_rows(frame, ~mask, folder / "removed.parquet", rows, on_batch)

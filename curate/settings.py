@@ -25,7 +25,8 @@ from curate.errors import PipelineFileError, UsageError
 
 __all__ = [
     "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "K_GRID", "LEARNED_WEIGHTS",
-    "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "ClusterSettings", "ColumnRule",
+    "MIN_MEMORY_MB", "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES",
+    "ClusterSettings", "ColumnRule",
     "Declared", "EngineSettings", "InputSettings", "OutputSettings", "Param", "RunSettings",
     "SpaceSettings", "Spec", "StageSettings", "check_params", "local_workers",
 ]
@@ -40,6 +41,7 @@ NOMINAL_KINDS = ("category", "string", "bool")
 ON_INVALID = ("stop", "quarantine")
 CLASS_CHOICES = ("all", "all-but-smallest")
 K_GRID = tuple(range(1, 26, 2))  # k values `curate evaluate` scores by default
+MIN_MEMORY_MB = 16  # the smallest [run] memory_mb / --memory-mb accepted
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from curate.errors import UsageError
-from curate.settings import BACKENDS
+from curate.settings import BACKENDS, MIN_MEMORY_MB
 
 if TYPE_CHECKING:
     from curate.settings import Spec
@@ -28,7 +28,12 @@ def load_with_options(args: argparse.Namespace) -> Spec:
 
     spec = load_spec(args.pipeline)
     engine = spec.run.engine
-    if getattr(args, "memory_mb", None):
+    if getattr(args, "memory_mb", None) is not None:
+        if args.memory_mb < MIN_MEMORY_MB:
+            raise UsageError(f"--memory-mb {args.memory_mb} is below the minimum of "
+                             f"{MIN_MEMORY_MB} megabytes",
+                             hint=f"give --memory-mb {MIN_MEMORY_MB} or more (default: [run] "
+                                  "memory_mb, else 1024)")
         engine = replace(engine, memory_mb=args.memory_mb)
     if getattr(args, "backend", None):
         engine = replace(engine, backend=args.backend)
@@ -95,7 +100,8 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--overwrite", action="store_true", help="replace an existing run folder")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
-    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
+    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, output batches and the "
+                   "report's sample, in MB (at least 16; see the README for what it covers)")
     p.add_argument("--backend", help="neighbour engine: " + ", ".join(BACKENDS))
     p.add_argument("--recall-target", type=float, metavar="SHARE",
                    help="recall the approximate engine probes for (default 0.99)")
