@@ -85,6 +85,28 @@ def _embed(col: Column, settings: SpaceSettings, classes: np.ndarray | None,
     return encode_nominal(col, how, fit=fit), [f"{col.name}={lv}" for lv in col.levels]
 
 
+def _check_nominal_size(prepared: list[Column], settings: SpaceSettings, n_classes: int,
+                        n_rows: int, memory_mb: int) -> None:
+    """Stop before encoding nominal columns whose embedding would not fit the memory setting.
+
+    A nominal column takes one float64 dimension per level (overlap) or per
+    class (VDM) on every row.
+    """
+    dims = {c.name: (n_classes if settings.distance == "hvdm" else len(c.levels))
+            for c in prepared if c.nominal}
+    need = n_rows * sum(dims.values()) * 8
+    if need <= memory_mb * 2**20:
+        return
+    widest = sorted(dims.items(), key=lambda item: -item[1])[:5]
+    raise UsageError(
+        f"encoding the nominal columns would take {need / 2**20:,.0f} MB for {n_rows:,} rows, "
+        f"more than the memory setting of {memory_mb:,} MB; the widest: "
+        + ", ".join(f"{name!r} ({width:,} values)" for name, width in widest),
+        hint="leave columns that are ids or free text out ([input] ignore), or raise [run] "
+             "memory_mb / --memory-mb" + ("" if settings.distance == "hvdm" else
+                                          ", or use distance = \"hvdm\" (one dimension per class)"))
+
+
 def _fit_mask(fit_rows: np.ndarray | Sequence[int] | None, n: int) -> np.ndarray | None:
     """``fit_rows`` (boolean mask or positions) as a boolean mask, None for every row."""
     if fit_rows is None:
@@ -159,6 +181,8 @@ def build_space(frame: pl.DataFrame, kinds: dict[str, str], settings: SpaceSetti
                          hint="pass labels= to build_space")
     prepared = [prepare_column(frame[name], kind in NOMINAL_KINDS, ids, settings.missing, fit)
                 for name, kind in kinds.items()]
+    _check_nominal_size(prepared, settings, len(class_names), frame.height,
+                        (engine or EngineSettings()).memory_mb)
     weights = _resolve_weights(settings, prepared, classes, fit)
     manhattan = settings.distance == "manhattan"
     blocks, dims, groups = [], [], []
