@@ -129,3 +129,16 @@ def test_a_mostly_text_column_is_not_taken_for_numbers(iris, make_pipeline, caps
         pl.Series("site", ["north", "south", "east", "12"] * 37 + ["north", "south"]))
     code, err = run_cli(make_pipeline(frame, ENN), capsys)
     assert code == 0, err
+
+
+def test_stray_text_after_the_rows_that_set_the_csv_types_is_named_too(make_pipeline, capsys):
+    """The type of a CSV column is guessed from its first rows; a stray cell past them is
+    still a stray cell of a numeric column, not an unreadable file."""
+    n = 10_050
+    x = [f"{i % 97}.5" for i in range(n)]
+    x[10_020] = "n/a"
+    frame = pl.DataFrame({"x": x, "y": ["a", "b"] * (n // 2)})
+    path = make_pipeline(frame, [{"method": "exact-duplicates"}])
+    code, err = run_cli(path, capsys)
+    assert code == 3, err
+    assert "'x'" in err and "1 row (10020)" in err and "'n/a'" in err
