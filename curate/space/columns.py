@@ -43,7 +43,7 @@ from __future__ import annotations
 
 import warnings
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import polars as pl
@@ -83,6 +83,16 @@ class Column:
     values: np.ndarray
     gaps: np.ndarray
     levels: tuple[str, ...] = ()
+
+    def released(self) -> Column:
+        """The same column without its values (once embedded, they are not read again).
+
+        Examples
+        --------
+        >>> Column("a", False, np.ones(3), np.zeros(3, bool)).released().values.size
+        0
+        """
+        return replace(self, values=np.zeros(0, dtype=self.values.dtype))
 
 
 def prepare_column(series: pl.Series, nominal: bool, ids: Sequence[object],
