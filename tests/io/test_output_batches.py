@@ -36,7 +36,7 @@ def test_no_row_selected_still_writes_the_columns(tmp_path):
 
 
 def test_a_run_streams_its_outputs_in_batches_of_the_memory_setting(tmp_path):
-    """About 10 MB of rows under a 16 MB setting: a quarter of it per batch, so several."""
+    """About 10 MB of rows under a 16 MB setting: an eighth of it per batch, so several."""
     rng = np.random.default_rng(0)
     n = 6000
     frame = pl.DataFrame({"x": rng.integers(0, 5000, size=n) / 10, "note": ["z" * 1500] * n,
