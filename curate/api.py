@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import functools
 import json
 import time
 from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
+from curate.io.batches import batch_rows, write_rows
 from curate.io.output_checks import spec_inputs
 from curate.io.outputs import Claim, OutputFile, claim_output
 from curate.pipeline.loop import execute
@@ -17,7 +19,7 @@ from curate.report.html import render_run
 from curate.settings import Spec
 from curate.spec import load_spec, spec_from_dict
 
-__all__ = ["run", "write_result"]
+__all__ = ["run", "selection_files", "write_result"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path,
@@ -78,17 +80,37 @@ def write_result(result: RunResult, claim: Claim, report: bool = True,
     """Write kept, removed, audit, summary and report as the run folder ``claim`` holds.
 
     The files are those of :data:`curate.io.folder.RUN_FILES`, each with its
-    size in memory (for the message of a full disk). With ``started``, the
-    summary's ``total_seconds`` is measured once the tables are ready to write.
+    size in memory (for the message of a full disk). Kept and removed rows are
+    streamed from the input in batches sized by ``[run] memory_mb`` (see
+    :mod:`curate.io.batches`). With ``started``, the summary's
+    ``total_seconds`` is measured once the tables are ready to write.
     """
     if started is not None:
         result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
-    frames = [("kept.parquet", result.kept), ("removed.parquet", result.removed),
-              ("audit.parquet", result.audit), ("protected.parquet", result.spared)]
-    files = [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
-             for name, frame in frames if frame is not None]
+    files = selection_files(result)
+    files += [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
+              for name, frame in (("audit.parquet", result.audit),
+                                  ("protected.parquet", result.spared)) if frame is not None]
     files.append(OutputFile.text("summary.json",
                                  json.dumps(result.summary, indent=2, default=str) + "\n"))
     if report:
         files.append(OutputFile.text("report.html", render_run(result)))
     claim.write_folder(files, kind="run")
+
+
+def selection_files(result: RunResult,
+                    on_batch: Callable[[int], None] | None = None) -> list[OutputFile]:
+    """``kept.parquet`` and ``removed.parquet``, each written from the input batch by batch.
+
+    ``on_batch`` is called with the row count of every batch written.
+    """
+    frame = result.rows_frame()
+    mask = result.kept_mask
+    rows = batch_rows(frame, result.prepared.spec.run.engine.memory_mb)
+    per_row = int(frame.estimated_size()) // max(1, frame.height)
+    kept = int(mask.sum())
+    return [OutputFile("kept.parquet", functools.partial(write_rows, frame, mask, rows=rows,
+                                                         on_batch=on_batch), per_row * kept),
+            OutputFile("removed.parquet", functools.partial(write_rows, frame, ~mask, rows=rows,
+                                                            on_batch=on_batch),
+                       per_row * (frame.height - kept))]

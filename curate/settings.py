@@ -25,7 +25,8 @@ from curate.errors import PipelineFileError, UsageError, canonical, suggest
 
 __all__ = [
     "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "FAULT_KINDS", "K_GRID",
-    "LEARNED_WEIGHTS", "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "STAGE_KEYS",
+    "LEARNED_WEIGHTS", "MIN_MEMORY_MB", "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES",
+    "STAGE_KEYS",
     "ClusterSettings", "ColumnRule",
     "Declared", "EngineSettings", "InputSettings", "OutputSettings", "Param", "RunSettings",
     "SpaceSettings", "Spec", "StageSettings", "canonical", "check_params", "local_workers",
@@ -53,6 +54,7 @@ FAULT_KINDS = {
     "label-flip": "a wrong label",
     "schema": "a value that breaks the table's schema (quarantined before any stage)",
 }
+MIN_MEMORY_MB = 16  # the smallest [run] memory_mb / --memory-mb accepted
 
 
 @dataclass(frozen=True)

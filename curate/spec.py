@@ -21,6 +21,7 @@ from curate.settings import (
     CLASS_CHOICES,
     COLUMN_TYPES,
     DISTANCES,
+    MIN_MEMORY_MB,
     MISSING_POLICIES,
     ON_INVALID,
     SCALES,
@@ -284,8 +285,9 @@ def _check_names(where: _Where, bodies: list[Any], stages: tuple[StageSettings, 
 def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:
     _known(where, "run", data, ("seed", "backend", "memory_mb", "recall_target"))
     memory = _get(where, "run", data, "memory_mb", int, 1024)
-    if memory < 16:
-        _fail(where, "run", "memory_mb", f"got {memory}", "give at least 16 (megabytes)")
+    if memory < MIN_MEMORY_MB:
+        _fail(where, "run", "memory_mb", f"got {memory}",
+              f"give at least {MIN_MEMORY_MB} (megabytes)")
     target = _get(where, "run", data, "recall_target", float, 0.99)
     if not 0.0 < target <= 1.0:
         _fail(where, "run", "recall_target", f"got {target!r}",

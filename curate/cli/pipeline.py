@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from curate.errors import UsageError, counted
-from curate.settings import BACKENDS, canonical, suggest
+from curate.settings import BACKENDS, MIN_MEMORY_MB, canonical, suggest
 
 if TYPE_CHECKING:
     from curate.settings import Spec
@@ -26,9 +26,10 @@ __all__ = ["add_commands", "add_trust_option", "load_with_options"]
 def _check_options(args: argparse.Namespace) -> None:
     """Refuse impossible engine options before the pipeline file or the input is read."""
     memory = getattr(args, "memory_mb", None)
-    if memory is not None and memory < 16:
-        raise UsageError(f"--memory-mb {memory} is too little memory for neighbour queries",
-                         hint="give at least 16 (megabytes); the default is 1024")
+    if memory is not None and memory < MIN_MEMORY_MB:
+        raise UsageError(f"--memory-mb {memory} is below the minimum of {MIN_MEMORY_MB} megabytes",
+                         hint=f"give --memory-mb {MIN_MEMORY_MB} or more (default: [run] "
+                              "memory_mb, else 1024)")
     backend = getattr(args, "backend", None)
     if backend is not None and canonical(backend, BACKENDS) is None:
         raise UsageError(f"--backend {backend} is not a neighbour engine" + suggest(backend,
@@ -127,7 +128,8 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--overwrite", action="store_true", help="replace a run folder curate wrote")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
-    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
+    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, output batches and the "
+                   "report's sample, in MB (at least 16; see the README for what it covers)")
     p.add_argument("--backend", help="neighbour engine: " + ", ".join(BACKENDS))
     p.add_argument("--recall-target", type=float, metavar="SHARE",
                    help="recall the approximate engine probes for (default 0.99)")

@@ -127,10 +127,10 @@ def _classes(s: Mapping[str, Any]) -> str:
         image(class_balance_plot(before, after), "rows per class before and after")
 
 
-def _reasons_of_valid(result: RunResult) -> np.ndarray:
-    """Removal reason of each row of the space (valid rows), empty text for kept rows."""
+def _reasons_of_valid(result: RunResult, pick: np.ndarray) -> np.ndarray:
+    """Removal reason of the rows ``pick`` of the space (valid rows), empty text for kept rows."""
     prep = result.prepared
-    ids = prep.ids.gather(prep.valid_positions)
+    ids = prep.ids.gather(prep.valid_positions[pick])
     frame = pl.DataFrame({"row_id": ids}).join(result.audit.select("row_id", "reason"),
                                                on="row_id", how="left", maintain_order="left")
     return frame["reason"].fill_null("").to_numpy().astype(str)
@@ -160,7 +160,7 @@ def _projection(result: RunResult) -> str:
             f"({space.matrix.shape[1]} embedded dimensions, {space.metric} distance); "
             f"{len(pick):,} of {space.n:,} rows shown"
             + (", a seeded uniform sample" if len(pick) < space.n else "") + ".</p>")
-    return note + image(projection_plot(xy, _reasons_of_valid(result)[pick],
+    return note + image(projection_plot(xy, _reasons_of_valid(result, pick),
                                          pca.explained_variance_ratio_.tolist()),
                          "two-dimensional projection with removed rows marked")
 
