@@ -1,10 +1,10 @@
 """Write the invented pump-fleet demo data (readings and ground truth) to a folder.
 
-Usage: ``python examples/make_pumps_data.py --rows 20000 --seed 7 --out data/pumps``.
-The default folder is ``data/pumps`` at the repository root, where
-``pipelines/pumps.toml`` looks for it. With ``--task regression`` it writes the
-regression variant instead (``hours.csv``: hours until service, and
-``hours-truth.csv``), which ``pipelines/pumps-hours.toml`` reads.
+Usage: ``python examples/make_pumps_data.py --rows 20000 --seed 7 --out demo/data``.
+The default folder is ``demo/data`` at the repository root, where ``make demo``
+writes the same files and ``pipelines/pumps.toml`` looks for them. With
+``--task regression`` it writes the regression variant instead (``hours.csv``:
+hours until service, and ``hours-truth.csv``), which ``pipelines/pumps-hours.toml`` reads.
 """
 
 from __future__ import annotations
@@ -21,8 +21,8 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=20000, help="rows in readings, copies included")
     parser.add_argument("--seed", type=int, default=7, help="seed of the random generator")
-    parser.add_argument("--out", type=Path, default=Path(__file__).resolve().parents[1] / "data"
-                        / "pumps", help="folder to write readings.csv and truth.csv into")
+    parser.add_argument("--out", type=Path, default=Path(__file__).resolve().parents[1] / "demo"
+                        / "data", help="folder to write readings.csv and truth.csv into")
     parser.add_argument("--format", choices=("csv", "parquet"), default="csv")
     parser.add_argument("--task", choices=("classification", "regression"),
                         default="classification", help="the condition classes (default), or "

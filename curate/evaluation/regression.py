@@ -41,6 +41,7 @@ import polars as pl
 from curate.errors import UsageError
 from curate.evaluation import stats
 from curate.evaluation.curation import curate_fold
+from curate.evaluation.detection import detection_by_stage, recall_by_fault
 from curate.evaluation.models import estimator, stack
 from curate.evaluation.regression_stats import (
     OUTLIER_SDS,
@@ -50,6 +51,7 @@ from curate.evaluation.regression_stats import (
     regression_record,
 )
 from curate.evaluation.stats import KNN, FoldOutcome, Key
+from curate.methods import method_for
 from curate.methods._targets import quantile_bins, regression_folds
 from curate.methods.base import MethodInfo
 from curate.neighbours.search import kneighbors
@@ -199,8 +201,13 @@ def _fold(plan: RegressionPlan, targets: np.ndarray, spaces: FoldSpaces, curate:
                        None if faults is None else faults[train], tuple(over))
 
 
+def _outlier_kinds(fold: FoldOutcome) -> np.ndarray:
+    """Fault kind of each training row under injected outliers: "outlier" or ""."""
+    return np.where(fold.flipped_rows(), "outlier", "")
+
+
 def _summary(plan: RegressionPlan, folds: list[FoldOutcome], names: Sequence[str],
-             n: int, faults: np.ndarray | None) -> dict[str, Any]:
+             meant: Sequence[Sequence[str]], n: int, faults: np.ndarray | None) -> dict[str, Any]:
     ratio = float(np.mean([f.n_test for f in folds]) / np.mean([f.n_train for f in folds]))
     keys = [(KNN, k) for k in plan.ks] + ([(plan.model, None)] if plan.model else [])
     records = [regression_record(folds, (name, k, c), ratio)
@@ -222,18 +229,19 @@ def _summary(plan: RegressionPlan, folds: list[FoldOutcome], names: Sequence[str
         result["noise"] = {"kind": "outliers", "rate": plan.outliers,
                            "shift_sds": list(OUTLIER_SDS),
                            "moved": int(sum(int(f.flipped_rows().sum()) for f in folds)),
-                           **stats.detection_by_stage(folds, FoldOutcome.flipped_rows, names)}
+                           **detection_by_stage(folds, _outlier_kinds, names, meant)}
     if faults is not None:
         kinds, counts = np.unique(faults[faults != ""], return_counts=True)
         result["truth"] = {"faults": dict(zip(kinds.tolist(), counts.tolist(), strict=True)),
-                           **stats.detection_by_stage(folds, FoldOutcome.faulty_rows, names),
-                           "by_fault": stats.recall_by_fault(folds)}
+                           **detection_by_stage(folds, FoldOutcome.fault_kinds, names, meant),
+                           "by_fault": recall_by_fault(folds)}
     return result
 
 
 def cross_validate_regression(targets: np.ndarray, spaces: FoldSpaces, curate: Curation, *,
                               stage_names: Sequence[str], plan: RegressionPlan,
                               faults: np.ndarray | None = None,
+                              catches: Sequence[Sequence[str]] | None = None,
                               progress: Callable[[str], None] | None = None) -> dict[str, Any]:
     """Measure, without leakage, what curation does to regression errors.
 
@@ -249,6 +257,9 @@ def cross_validate_regression(targets: np.ndarray, spaces: FoldSpaces, curate: C
     plan : RegressionPlan
     faults : array of str, optional
         Known fault kind of each row ("" for none), scored like the outliers.
+    catches : sequence of sequences of str, optional
+        The fault kinds each stage's method is meant to catch
+        (``MethodInfo.catches``); a stage is scored against those. Default: none.
 
     Returns
     -------
@@ -281,7 +292,8 @@ def cross_validate_regression(targets: np.ndarray, spaces: FoldSpaces, curate: C
             say(f"repeat {repeat + 1}/{plan.repeats}, fold {number + 1}/{plan.folds}: "
                 f"{len(train)} training rows, {len(test)} test rows")
             outcomes.append(_fold(plan, y, spaces, curate, faults, (repeat, number, train, test)))
-    result = _summary(plan, outcomes, stage_names, len(y), faults)
+    meant = [tuple(c) for c in catches] if catches is not None else [()] * len(stage_names)
+    result = _summary(plan, outcomes, stage_names, meant, len(y), faults)
     result["seconds"] = round(time.perf_counter() - started, 3)
     return stats.json_safe(result)
 
@@ -311,7 +323,9 @@ def evaluate_regression(prep: Prepared, *, folds: int = 10, repeats: int = 1,
                           inject_noise, seed)
     result = cross_validate_regression(prep.space_labels, spaces, curate,
                                        stage_names=[s.name for s in spec.stages], plan=plan,
-                                       faults=faults, progress=progress)
+                                       faults=faults, progress=progress,
+                                       catches=[method_for(s.method, "regression").catches
+                                                for s in spec.stages])
     if result["truth"] is not None:
         result["truth"]["file"] = truth
     return {"pipeline": spec.source, "input": str(spec.input.path),

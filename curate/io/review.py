@@ -12,14 +12,18 @@ The diff of two runs is in :mod:`curate.io.diff`.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from contextlib import AbstractContextManager
 from pathlib import Path
 
 import polars as pl
 
 from curate.errors import UsageError, first_ids
-from curate.io.folder import run_folder, write_new_file
+from curate.io.folder import run_folder
+from curate.io.outputs import Claim, claim_output
+from curate.io.spreadsheet import original_text, spreadsheet_safe
 
-__all__ = ["DECISIONS", "protected_ids", "review_table", "write_review"]
+__all__ = ["DECISIONS", "claim_csv", "protected_ids", "review_table", "write_review"]
 
 DECISIONS = {
     "keep": "protect the row: no stage may remove it when the pipeline file names this file",
@@ -72,6 +76,9 @@ def review_table(run: str | Path) -> pl.DataFrame:
 def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -> int:
     """Write :func:`review_table` of ``run`` to the CSV file ``out``; return its row count.
 
+    Text cells that a spreadsheet would run as a formula get a leading quote
+    (:mod:`curate.io.spreadsheet`); :func:`protected_ids` takes it off again.
+
     Examples
     --------
     >>> write_review("no/such/run", "review.csv")
@@ -80,9 +87,30 @@ def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -
     curate.errors.UsageError: no/such/run is not a run folder (it has no kept.parquet)
       hint: give a folder that `curate run` wrote (its [output] folder or --out)
     """
-    table = review_table(run)
-    write_new_file(Path(out), overwrite, table.write_csv)
+    run_folder(run)
+    with claim_csv(Path(out), overwrite, [Path(run)], ("row_id", "decision")) as claim:
+        table = review_table(run)
+        claim.write_file(spreadsheet_safe(table).write_csv, int(table.estimated_size()))
     return table.height
+
+
+def _made_by_curate(*columns: str) -> Callable[[Path], bool]:
+    """Recognise a CSV curate wrote (perhaps since edited in a spreadsheet) by its first columns."""
+    def check(path: Path) -> bool:
+        with open(path, encoding="utf-8-sig", errors="replace") as handle:
+            header = handle.readline().strip()
+        sep = _separator(header) or ","
+        return tuple(c.strip().strip('"') for c in header.split(sep)[:len(columns)]) == columns
+
+    return check
+
+
+def claim_csv(path: Path, overwrite: bool, reads: list[Path],
+              columns: tuple[str, str]) -> AbstractContextManager[Claim]:
+    """Check and claim the CSV ``path`` before the work (see :mod:`curate.io.outputs`);
+    ``overwrite`` replaces only a file whose header starts with ``columns`` (one curate wrote)."""
+    return claim_output(path, overwrite=overwrite, inputs=[("the run folder", r) for r in reads],
+                        folder=False, owned=_made_by_curate(*columns))
 
 
 def _separator(header: str) -> str | None:
@@ -115,7 +143,8 @@ def protected_ids(path: str | Path) -> list[str]:
         raise UsageError(f"protect file {path} does not exist",
                          hint="give the CSV that `curate review` wrote (marked keep), or a file "
                               "of row ids one per line")
-    text = path.read_text(encoding="utf-8-sig")
+    with open(path, encoding="utf-8-sig", newline="") as handle:  # a quoted cell may hold \r
+        text = handle.read()
     header = next((line for line in text.splitlines() if line.strip()), "")
     sep = _separator(header)
     if sep is None:
@@ -123,7 +152,7 @@ def protected_ids(path: str | Path) -> list[str]:
                if line.strip() and not line.lstrip().startswith("#")]
         return list(dict.fromkeys(ids))
     table = pl.read_csv(text.encode(), separator=sep, infer_schema=False)
-    return _kept_by_reviewer(table, path)
+    return _kept_by_reviewer(table.with_columns(original_text(pl.all())), path)
 
 
 def _kept_by_reviewer(table: pl.DataFrame, path: Path) -> list[str]:
@@ -141,7 +170,8 @@ def _kept_by_reviewer(table: pl.DataFrame, path: Path) -> list[str]:
                          f"keep, remove or empty, on {first_ids(rows['row_id'].to_list())}",
                          hint="write keep to protect a row; leave the cell empty (or remove) "
                               "otherwise")
-    ids = table.filter(decision == "keep")["row_id"].str.strip_chars()
+    # Spaces a reviewer typed go; tabs and carriage returns may belong to an id.
+    ids = table.filter(decision == "keep")["row_id"].str.strip_chars(" ")
     if ids.is_null().any() or (ids == "").any():
         raise UsageError(f"protect file {path}: a row marked keep has no row_id",
                          hint="fill in the row_id of every row marked keep")

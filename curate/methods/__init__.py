@@ -35,6 +35,7 @@ from curate.methods.one_sided import OSS
 from curate.methods.reg_duplicates import REG_CONFLICTING
 from curate.methods.regression import REG_CNN, REG_ENN, REG_HARDNESS
 from curate.methods.scores import HARDNESS
+from curate.settings import FAULT_KINDS
 
 __all__ = ["METHODS", "REGRESSION_METHODS", "MethodInfo", "Selection", "method_for", "register"]
 
@@ -60,6 +61,9 @@ def register(*infos: MethodInfo) -> dict[str, MethodInfo]:
             raise ValueError(f"method key {info.key!r} is declared twice")
         if not info.reasons:
             raise ValueError(f"method {info.key!r} declares no reason codes")
+        unknown = sorted(set(info.catches) - set(FAULT_KINDS))
+        if unknown:
+            raise ValueError(f"method {info.key!r} is meant to catch unknown fault kinds {unknown}")
         for param in info.params:
             if param.default is not None and param.problem(param.default) is not None:
                 raise ValueError(f"method {info.key!r}: the default of {param.name!r} is not "

@@ -101,7 +101,7 @@ def make_discretized(registry: Mapping[str, MethodInfo]) -> MethodInfo:
         family="editing", reference="Arnaiz-González et al. 2016",
         purpose="cut the target into equal-frequency bins and run a classification method on "
                 "the bins (the audit states the bins)",
-        func=func,
+        func=func, catches=("outlier",),
         params=(Param("bins", int, 5, "equal-frequency bins of the target (fewer when many "
                       "targets are equal)", low=2),
                 Param("method", str, "enn", "the classification method that runs on the bins",

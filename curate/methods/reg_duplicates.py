@@ -92,7 +92,7 @@ REG_CONFLICTING = MethodInfo(
     reference="common practice",
     purpose="rows with equal feature values whose targets differ by more than a tolerance: drop "
             "them, keep the median one, or report",
-    func=regression_conflicts, uses_neighbours=False,
+    func=regression_conflicts, uses_neighbours=False, catches=("conflict",),
     params=(Param("policy", str, "drop-all", "what to do with a conflicting group",
                   choices=("drop-all", "keep-median", "report")),
             Param("tolerance", float, 0.0, "targets of equal rows may differ by this much, in "

@@ -15,18 +15,9 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from curate.report.evaluation import evaluation_html
-from curate.report.parts import (
-    MAX_POINTS,
-    MAX_QUERIES,
-    cell,
-    image,
-    over_limit_notes,
-    reasons_of_valid,
-    sample,
-    section,
-    table,
-)
+from curate.report.cells import cell, image, marked, section, table
+from curate.report.evaluation import evaluation_section, over_limit_notes
+from curate.report.parts import MAX_POINTS, MAX_QUERIES, reasons_of_valid, sample
 from curate.report.regression import residual_section, target_section
 
 if TYPE_CHECKING:
@@ -45,18 +36,26 @@ CAUTIONS = (
 
 _STYLE = """body{font-family:system-ui,sans-serif;max-width:64em;margin:2em auto;padding:0 1em;
 color:#1b1f23;line-height:1.45}h1{font-size:1.6em}h2{margin-top:1.8em;border-bottom:1px solid #ddd}
-table{border-collapse:collapse;margin:.6em 0}td,th{border:1px solid #c8ccd0;padding:.25em .6em;
-text-align:left}td.n{text-align:right;font-variant-numeric:tabular-nums}
+table{border-collapse:collapse;margin:.6em 0;max-width:100%}td,th{border:1px solid #c8ccd0;
+padding:.25em .6em;text-align:left}td.n{text-align:right;font-variant-numeric:tabular-nums;
+white-space:nowrap}table.wide{font-size:.86em}table.wide td,table.wide th{padding:.2em .4em}
 img{max-width:100%;height:auto}.note{color:#555;font-size:.92em}code{font-size:.92em}"""
 
 
 def _headline(s: Mapping[str, Any]) -> str:
-    keys = ("rows_in", "rows_kept", "rows_removed", "rows_quarantined", "seconds", "seed")
-    main = table(["rows in", "kept", "removed", "quarantined", "run time (s)", "seed"],
-                 [[cell(s[k], k) for k in keys]])
+    keys = ("rows_in", "rows_kept", "rows_removed", "rows_quarantined", "seconds")
+    total = (cell(s["total_seconds"], "total_seconds") if "total_seconds" in s else cell(None))
+    main = table(["rows in", "kept", "removed", "quarantined", "stages (s)",
+                  "whole command (s)", "seed"],
+                 [[*(cell(s[k], k) for k in keys), total, cell(s["seed"], "seed")]])
+    timed = ('<p class="note">Stages: the time from the first stage to the summary, the work of '
+             "the methods. Whole command: from the start of the command (or of "
+             "<code>curate.run</code>) to writing the tables: reading and checking the input, "
+             "building the space, the stages and writing kept, removed and audit rows; writing "
+             "this report comes after. Python's own start-up is not included.</p>")
     reasons = table(["reason", "rows removed"],
                     [[cell(r), cell(n, f"by_reason.{r}")] for r, n in s["by_reason"].items()])
-    facts = table(["", ""], [
+    facts = table([], [
         [cell("input"), cell(s["input"])],
         [cell("input sha256"), cell(s["input_sha256"])],
         [cell("pipeline"), cell(s["pipeline"])],
@@ -66,7 +65,7 @@ def _headline(s: Mapping[str, Any]) -> str:
         [cell("neighbour engine"), cell(_engine_text(s.get("engine", {})))],
         [cell("versions"), cell(", ".join(f"{k} {v}" for k, v in s["versions"].items()))],
     ])
-    return f"{main}\n<h3>Removed, by reason</h3>{reasons}\n<h3>Provenance</h3>{facts}"
+    return f"{main}{timed}\n<h3>Removed, by reason</h3>{reasons}\n<h3>Provenance</h3>{facts}"
 
 
 def _engine_text(engine: Mapping[str, Any]) -> str:
@@ -120,7 +119,8 @@ def _classes(s: Mapping[str, Any]) -> str:
     before, after = s["classes_in"], s["classes_kept"]
     rows = [[cell(c), cell(before[c], f"classes_in.{c}"),
              cell(after.get(c, 0), f"classes_kept.{c}"),
-             cell(after.get(c, 0) / before[c] if before[c] else float("nan"))] for c in before]
+             cell(after.get(c, 0) / before[c] if before[c] else float("nan"), percent=True)]
+            for c in before]
     return table(["class", "rows in", "rows kept", "share kept"], rows) + \
         image(class_balance_plot(before, after), "rows per class before and after")
 
@@ -143,7 +143,7 @@ def _projection(result: RunResult) -> str:
             f"({space.matrix.shape[1]} embedded dimensions, {space.metric} distance); "
             f"{len(pick):,} of {space.n:,} rows shown"
             + (", a seeded uniform sample" if len(pick) < space.n else "") + ".</p>")
-    return note + image(projection_plot(xy, reasons_of_valid(result)[pick],
+    return note + image(projection_plot(xy, reasons_of_valid(result, pick),
                                          pca.explained_variance_ratio_.tolist()),
                          "two-dimensional projection with removed rows marked")
 
@@ -168,18 +168,19 @@ def _distances(result: RunResult) -> str:
     rows = [[cell("rows measured"), cell(len(pick))],
             [cell("median distance"), cell(float(np.median(dist)))],
             [cell("share at distance 0 (exact copies in the features)"),
-             cell(float(np.mean(dist == 0)))]]
+             cell(float(np.mean(dist == 0)), percent=True)]]
     if radius is not None:
-        rows.append([cell("share within the near-copy radius"), cell(float(np.mean(dist <= radius)))])
+        rows.append([cell("share within the near-copy radius"),
+                     cell(float(np.mean(dist <= radius)), percent=True)])
     return (f'<p class="note">Distance from each row to its nearest other row in the input '
             f"(before any stage), {len(pick):,} rows"
             + (" sampled with a seed" if len(pick) < space.n else "") + ".</p>"
-            + table(["", ""], rows) + image(distance_plot(dist, radius),
+            + table([], rows) + image(distance_plot(dist, radius),
                                              "histogram of nearest-neighbour distances"))
 
 
 def _cautions() -> str:
-    return "<ul>" + "".join(f"<li>{html.escape(c)}</li>" for c in CAUTIONS) + "</ul>"
+    return "<ul>" + "".join(f"<li>{marked(c)}</li>" for c in CAUTIONS) + "</ul>"
 
 
 def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -> str:
@@ -209,7 +210,7 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
     parts += [section("projection", "Where the removed rows lie", _projection(result)),
               section("distances", "Nearest-neighbour distances", _distances(result))]
     if evaluation is not None:
-        parts.append(section("evaluation", "Evaluation", evaluation_html(evaluation)))
+        parts.append(section("evaluation", "Evaluation", evaluation_section(evaluation)))
     parts.append(section("cautions", "Cautions", _cautions()))
     title = "curate evaluation report" if evaluation is not None else "curate run report"
     body = "\n".join(parts)

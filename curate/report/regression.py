@@ -13,7 +13,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from curate.report.parts import MAX_QUERIES, cell, image, reasons_of_valid, sample, table
+from curate.report.cells import cell, image, table
+from curate.report.parts import MAX_QUERIES, reasons_of_valid, sample
 
 if TYPE_CHECKING:
     from curate.pipeline.records import RunResult
@@ -56,6 +57,6 @@ def residual_section(result: RunResult) -> str:
             f"nearest other rows in the input (before any stage), {len(pick):,} rows"
             + (" sampled with a seed" if len(pick) < space.n else "")
             + ". Rows far from the zero line disagree with their neighbourhood.</p>"
-            + image(residual_plot(predicted, y[pick] - predicted, reasons_of_valid(result)[pick],
+            + image(residual_plot(predicted, y[pick] - predicted, reasons_of_valid(result, pick),
                                   result.summary["target"]["unit"]),
                     "residuals against the neighbours' mean, removed rows marked"))

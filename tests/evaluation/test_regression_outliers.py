@@ -44,7 +44,7 @@ def test_outliers_are_scored_per_stage_like_the_rule_finds_them() -> None:
     spaces = fold_spaces(frame, {c: "float" for c in frame.columns}, SpaceSettings(),
                          EngineSettings(), list(range(len(y))))
     out = cross_validate_regression(y, spaces, stage_curation([(REG_ENN, {})], SEED),
-                                    stage_names=["targets"],
+                                    stage_names=["targets"], catches=[REG_ENN.catches],
                                     plan=RegressionPlan(folds=FOLDS, ks=(5,), outliers=SHARE,
                                                         seed=SEED))
     removed = found = moved_total = 0
