@@ -15,12 +15,13 @@ from curate.audit import AuditBuilder
 from curate.errors import InputError, SafetyLimitError, UsageError, first_ids
 from curate.methods import METHODS
 from curate.methods.base import Selection
+from curate.neighbour_lists import sharing_lists
 from curate.neighbours import choose_backend, recording, summarise_calls
 from curate.space import Space, build_space
 from curate.spec import Spec, StageSettings
 from curate.table import read_input, row_ids
 
-__all__ = ["Prepared", "RunResult", "prepare", "execute"]
+__all__ = ["Prepared", "RunResult", "StageOutcome", "prepare", "prepare_frame", "execute"]
 
 NEIGHBOUR_FAMILIES = ("editing", "condensing", "hybrid")
 
@@ -60,6 +61,7 @@ class RunResult:
     kept_positions: np.ndarray
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     spared: pl.DataFrame | None = None
+    outcomes: list[StageOutcome] = field(default_factory=list)
 
 
 def _labels_of_valid(frame: pl.DataFrame, label: str) -> np.ndarray:
@@ -96,7 +98,12 @@ def _protected_positions(spec: Spec, ids: pl.Series) -> np.ndarray:
 
 def prepare(spec: Spec) -> Prepared:
     """Read, identify and validate the input and build its space, without selecting anything."""
-    frame = read_input(spec.input.path)
+    return prepare_frame(spec, read_input(spec.input.path))
+
+
+def prepare_frame(spec: Spec, frame: pl.DataFrame, fit: np.ndarray | None = None) -> Prepared:
+    """Identify and validate ``frame`` and build its space (fitted on the ``fit`` input rows,
+    a boolean mask over ``frame``, when given: an update keeps its run's fitted space)."""
     if spec.input.label not in frame.columns:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} is not in the "
                          f"input (columns: {', '.join(frame.columns[:12])})",
@@ -112,7 +119,8 @@ def prepare(spec: Spec) -> Prepared:
     labels = _labels_of_valid(checked, spec.input.label)
     _check_classes(spec, labels)
     valid_ids = ids.filter(pl.Series(validation.valid)).to_list()
-    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=labels)
+    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=labels,
+                        fit_rows=None if fit is None else fit[validation.valid])
     protected_input = _protected_positions(spec, ids)
     local = np.full(frame.height, -1, dtype=np.int64)
     local[np.flatnonzero(validation.valid)] = np.arange(int(validation.valid.sum()))
@@ -229,6 +237,8 @@ class StageOutcome:
     selection: Selection
     removed_input: np.ndarray
     seconds: float
+    rows: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    lists: tuple[np.ndarray, np.ndarray] | None = None
 
 
 def _record(prep: Prepared, audit: AuditBuilder, stage: StageSettings, active: np.ndarray,
@@ -290,20 +300,23 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         sub = prep.space.subset(active)
         stage_labels = labels[active]
         protected = np.flatnonzero(np.isin(active, prep.protected))
-        with recording() as calls:
-            sel = run_stage(stage, sub, stage_labels, protected, prep.spec.run.seed)
+        with sharing_lists(sub.matrix) as lists:
+            with recording() as calls:
+                sel = run_stage(stage, sub, stage_labels, protected, prep.spec.run.seed)
+            # the lists just kept serve the run without protection too
+            spared_count = _spared(prep, spared, stage, active, sub, stage_labels, protected)
         if calls:
             sel.info["engine"] = summarise_calls(calls)
         _verify_partition(sel, len(active), stage)
         check_safety(stage, stage_labels, sel.removed, [ids_valid[a] for a in active])
         removed_input = _record(prep, audit, stage, active, sel)
-        sel.info["protected_spared"] = _spared(prep, spared, stage, active, sub, stage_labels,
-                                               protected)
+        sel.info["protected_spared"] = spared_count
         for name, values in sel.scores.items():
             full = scores.setdefault(name, np.full(prep.frame.height, np.nan))
             full[prep.valid_positions[active]] = values
         outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed_input,
-                                     time.perf_counter() - t0))
+                                     time.perf_counter() - t0, prep.valid_positions[active],
+                                     lists.pair()))
         active = active[sel.kept]
         say(f"  removed {len(sel.removed)} rows in {outcomes[-1].seconds:.2f} s")
     kept_positions = prep.valid_positions[active]
@@ -313,7 +326,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
     summary["engine"].update(_engine_facts(prep, outcomes))
     return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
-                     spared.frame(unique_ids=False) if len(prep.protected) else None)
+                     spared.frame(unique_ids=False) if len(prep.protected) else None, outcomes)
 
 
 def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any]:

@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from curate.table import write_run_folder
+from curate.update_state import write_state
 
 if TYPE_CHECKING:
     from curate.pipeline import RunResult
@@ -18,7 +19,7 @@ RUN_FILES = ("kept.parquet", "removed.parquet", "audit.parquet", "summary.json",
 
 
 def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
-    """Write kept, removed, audit, summary and report into ``folder`` atomically."""
+    """Write kept, removed, audit, summary, report and update state into ``folder`` atomically."""
     from curate.report import render_run
 
     def fill(tmp: Path) -> None:
@@ -30,5 +31,6 @@ def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool 
         (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, default=str) + "\n")
         if report:
             (tmp / "report.html").write_text(render_run(result), encoding="utf-8")
+        write_state(result, tmp)
 
     write_run_folder(folder, overwrite, fill)
