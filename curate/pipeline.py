@@ -42,6 +42,7 @@ class Prepared:
     space_labels: np.ndarray
     protected: np.ndarray
     checked: pl.DataFrame
+    fit: np.ndarray | None = None
 
     @property
     def valid_positions(self) -> np.ndarray:
@@ -126,7 +127,7 @@ def prepare_frame(spec: Spec, frame: pl.DataFrame, fit: np.ndarray | None = None
     local[np.flatnonzero(validation.valid)] = np.arange(int(validation.valid.sum()))
     return Prepared(spec, frame, ids, frame[spec.input.label], validation.valid,
                     validation.failures, features, kinds, space, labels,
-                    local[protected_input][local[protected_input] >= 0], checked)
+                    local[protected_input][local[protected_input] >= 0], checked, fit)
 
 
 def _removable(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:

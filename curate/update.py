@@ -72,7 +72,8 @@ def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
         check_pipeline(state, spec)
     frame, old_rows = combined_input(state, new_path, spec)
     spec = replace(spec, input=replace(spec.input, path=new_path))
-    fit = None if refit else np.arange(frame.height) < old_rows
+    fit = None if refit else np.concatenate([state.rows["fit"].to_numpy(),
+                                             np.zeros(frame.height - old_rows, dtype=bool)])
     prep = prepare_frame(spec, frame, fit)
     if refit:
         result = execute(prep, progress)

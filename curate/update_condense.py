@@ -149,7 +149,7 @@ def _result(inp: StageInput, nearest: _Nearest, before: tuple[np.ndarray, np.nda
                     default=0)) + rounds
     out = Removals(n)
     _absorbed(out, np.flatnonzero(fresh), nearest.near, nearest.best, names, codes, steps)
-    sel = out.selection(info={"update_rounds": rounds})
+    sel = out.selection(info={"steps": steps, "update_rounds": rounds})
     copied = inp.rows[~in_store & ~fresh]
     kept = np.flatnonzero(in_store)
     old_row = np.isin(inp.rows, inp.old.rows)

@@ -9,10 +9,12 @@ Every run folder gets a sub-folder ``update/``:
   matrix of the valid rows together with its column names and metric. An
   update rebuilds the space of the old rows with the same fitted statistics
   and checks the fingerprint, so it works in exactly the run's space;
-* ``rows.parquet``: every input row id in input order, and whether it passed
-  the schema: the run folder's kept and removed rows are the old input, and
-  this puts them back in their order (ties between equal distances are broken
-  by input position, so order matters);
+* ``rows.parquet``: every input row id in input order, whether it passed the
+  schema, and whether the space was fitted on it (an update keeps the fit of
+  the run it started from, so a chain of updates keeps the first run's): the
+  run folder's kept and removed rows are the old input, and this puts them
+  back in their order (ties between equal distances are broken by input
+  position, so order matters);
 * ``lists.npz``: for each editing stage whose result is a function of every
   row's k nearest neighbours (ENN, All-kNN, Tomek links, NCR, hardness), the
   stage's rows and their neighbour lists (input positions and distances).
@@ -141,14 +143,17 @@ def write_state(result: RunResult, folder: Path) -> None:
                            {k: v for k, v in out.selection.info.items()
                             if k in ("passes", "steps", "rounds")})})
     np.savez(where / "lists.npz", allow_pickle=False, **arrays)
-    pl.DataFrame({"row_id": prep.ids, "valid": prep.valid}).write_parquet(where / "rows.parquet")
+    fitted = prep.valid if prep.fit is None else prep.fit & prep.valid
+    pl.DataFrame({"row_id": prep.ids, "valid": prep.valid, "fit": fitted}).write_parquet(
+        where / "rows.parquet")
     state = {
         "format": FORMAT, "curate": metadata.version("curate"),
         "columns": prep.frame.columns,
         "settings": settings_of(prep.spec, prep.features),
         "kinds": prep.kinds,
         "space": {"metric": prep.space.metric, "columns": list(prep.space.columns),
-                  "weights": prep.space.weights, "fit": fit_descriptor(prep.checked, prep.kinds),
+                  "weights": prep.space.weights, "fit": fit_descriptor(
+                      prep.checked.filter(pl.Series(fitted[prep.valid])), prep.kinds),
                   "sha256": space_fingerprint(prep.space)},
         "engine": {"backend": prep.spec.run.engine.backend},
         "protected": prep.ids.gather(prep.valid_positions[prep.protected]).to_list(),
