@@ -1,16 +1,24 @@
-"""The Python entry points: run a pipeline and get polars frames back."""
+"""The Python entry points: run a pipeline or update a run, get polars frames back, and
+write the run folder."""
 
 from __future__ import annotations
 
+import json
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
-from curate.pipeline import RunResult, execute, prepare
-from curate.runfolder import write_result
-from curate.spec import Spec, load_spec, spec_from_dict
+from curate.io.folder import write_run_folder
+from curate.pipeline.loop import execute
+from curate.pipeline.prepare import prepare
+from curate.pipeline.records import RunResult
+from curate.pipeline.state import write_state
+from curate.pipeline.update import update_run
+from curate.report.html import render_run
+from curate.settings import Spec
+from curate.spec import load_spec, spec_from_dict
 
-__all__ = ["run"]
+__all__ = ["run", "update", "write_result"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
@@ -27,7 +35,7 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
-    (paths relative to ``base``) or a checked :class:`~curate.spec.Spec`.
+    (paths relative to ``base``) or a checked :class:`~curate.settings.Spec`.
     Nothing is written unless ``write`` is true or ``out`` is given.
 
     Examples
@@ -43,8 +51,70 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     """
     spec = _as_spec(pipeline, base)
     result = execute(prepare(spec), progress=progress)
+    _write_if_asked(result, spec, out, overwrite, write)
+    return result
+
+
+def _write_if_asked(result: RunResult, spec: Spec, out: str | Path | None,
+                    overwrite: bool | None, write: bool) -> None:
+    """Write the run folder when ``write`` or ``out`` asks for it (at ``out``, else the
+    pipeline's ``[output] folder``)."""
     if write or out is not None:
         folder = Path(out) if out is not None else spec.output.folder
         write_result(result, folder, spec.output.overwrite if overwrite is None else overwrite,
                      report=spec.output.report)
+
+
+def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
+           new: str | Path, out: str | Path | None = None, overwrite: bool | None = None,
+           refit: bool = False, write: bool = False, base: str | Path = ".",
+           progress: Callable[[str], None] | None = None) -> RunResult:
+    """Add the rows of ``new`` to the run folder ``run`` and return the updated run.
+
+    ``pipeline`` is the run's pipeline (file, dictionary or checked settings;
+    its ``[input] path`` is not read: the old rows come from the run folder).
+    ``new`` is a CSV or Parquet file, a folder of them or a glob, with the
+    run's columns and ids it does not have. Nothing is written unless ``write``
+    is true or ``out`` is given; the folder is written all at once, as
+    :func:`curate.run` writes it, and ``run`` itself is only read.
+
+    Examples
+    --------
+    >>> import polars as pl, tempfile
+    >>> folder = Path(tempfile.mkdtemp())
+    >>> pl.DataFrame({"x": [0.0, 0.1, 0.2, 5.0, 5.1, 5.2], "y": ["a", "a", "a", "b", "b", "b"]}
+    ...              ).write_csv(folder / "t.csv")
+    >>> pipe = {"input": {"path": "t.csv", "label": "y"},
+    ...         "stages": [{"method": "exact-duplicates"}]}
+    >>> _ = run(pipe, base=folder, out=folder / "run1")
+    >>> pl.DataFrame({"x": [5.1, 9.0], "y": ["b", "b"]}).write_csv(folder / "new.csv")
+    >>> result = update(pipe, base=folder, run=folder / "run1", new=folder / "new.csv")
+    >>> result.audit["row_id"].to_list(), result.summary["update"]["equals_full_run"]
+    ([6], True)
+    """
+    spec = _as_spec(pipeline, base)
+    result = update_run(spec, Path(run), Path(new), refit=refit, progress=progress)
+    _write_if_asked(result, spec, out, overwrite, write)
     return result
+
+
+def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
+    """Write kept, removed, audit, summary, report and update state into ``folder`` atomically.
+
+    The files are those of :data:`curate.io.folder.RUN_FILES`, and the folder
+    ``update/`` that a later :func:`update` starts from
+    (:mod:`curate.pipeline.state`).
+    """
+
+    def fill(tmp: Path) -> None:
+        result.kept.write_parquet(tmp / "kept.parquet")
+        result.removed.write_parquet(tmp / "removed.parquet")
+        result.audit.write_parquet(tmp / "audit.parquet")
+        if result.spared is not None:
+            result.spared.write_parquet(tmp / "protected.parquet")
+        (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, default=str) + "\n")
+        if report:
+            (tmp / "report.html").write_text(render_run(result), encoding="utf-8")
+        write_state(result, tmp)
+
+    write_run_folder(folder, overwrite, fill)

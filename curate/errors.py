@@ -2,7 +2,16 @@
 
 Every error says what failed, where (file, key, column, class, first row ids
 and a count) and ends with a hint for the fix. The CLI prints
-``ErrorType: message`` and exits with the class's ``exit_code``.
+``ErrorType: message`` and exits with the class's ``exit_code``:
+
+* 2 :class:`UsageError`, :class:`PipelineFileError`, :class:`NeighbourCountError`;
+* 3 :class:`InputError`, :class:`SchemaFailure`;
+* 4 :class:`SafetyLimitError`;
+* 1 :class:`ClusterError`, and anything that is not a :class:`CurateError` (a bug).
+
+Warnings derive from :class:`CurateWarning`; the CLI prints them as
+``warning: message`` and goes on. This module imports nothing but the standard
+library, so every layer may use it.
 """
 
 from __future__ import annotations
@@ -10,8 +19,12 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 __all__ = [
+    "ClusterError",
+    "ConstantColumnWarning",
     "CurateError",
+    "CurateWarning",
     "InputError",
+    "NeighbourCountError",
     "PipelineFileError",
     "SafetyLimitError",
     "SchemaFailure",
@@ -65,6 +78,25 @@ class SafetyLimitError(CurateError):
     """A safety limit stopped the run before anything was written (exit code 4)."""
 
     exit_code = 4
+
+
+class NeighbourCountError(UsageError, ValueError):
+    """More neighbours were asked for than there are reference rows (exit code 2).
+
+    Also a ``ValueError``, as scikit-learn raises for the same request.
+    """
+
+
+class ClusterError(CurateError):
+    """The cluster could not be reached or lost work it could not redo (exit code 1)."""
+
+
+class CurateWarning(UserWarning):
+    """Base of every warning curate gives on purpose; the run goes on."""
+
+
+class ConstantColumnWarning(CurateWarning):
+    """A feature column has one value only and contributes nothing to distances."""
 
 
 def first_ids(ids: Sequence[object], limit: int = 5) -> str:

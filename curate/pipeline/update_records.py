@@ -1,0 +1,108 @@
+"""The records of an update's stage: what the run did in it, what reaches it now, and
+what the update decided; and the plain full rerun every family falls back to."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import polars as pl
+
+from curate.methods import METHODS
+from curate.methods.base import Selection
+from curate.neighbours.lists import sharing_lists
+from curate.pipeline.records import Prepared
+from curate.pipeline.stage import run_stage
+from curate.settings import StageSettings
+
+__all__ = ["OldStage", "StageInput", "StageUpdate", "full_rerun", "old_fate"]
+
+
+@dataclass(frozen=True)
+class OldStage:
+    """What the old run did in one stage, in input positions of the update's input.
+
+    ``records`` holds the stage's audit rows with their input ``position``
+    (and ``kept_position`` for kept_as); ``lists`` the kept neighbour lists;
+    ``metric`` the distance the stage's rows were measured with.
+    """
+
+    rows: np.ndarray
+    removed: np.ndarray
+    records: pl.DataFrame
+    lists: tuple[np.ndarray, np.ndarray] | None
+    info: dict[str, Any]
+    protected: np.ndarray
+    metric: str
+
+
+@dataclass(frozen=True)
+class StageInput:
+    """One stage as the update meets it: settings, the rows reaching it and the old stage."""
+
+    prep: Prepared
+    stage: StageSettings
+    active: np.ndarray
+    old: OldStage
+    seed: int
+
+    @property
+    def rows(self) -> np.ndarray:
+        """Input positions of the rows reaching the stage, ascending."""
+        return self.prep.valid_positions[self.active]
+
+    @property
+    def labels(self) -> np.ndarray:
+        """Their labels."""
+        return self.prep.space_labels[self.active]
+
+    @property
+    def protected(self) -> np.ndarray:
+        """Stage positions of the protected rows."""
+        return np.flatnonzero(np.isin(self.active, self.prep.protected))
+
+    def entering(self) -> np.ndarray:
+        """Stage positions of rows that did not reach the old stage."""
+        return np.flatnonzero(~np.isin(self.rows, self.old.rows))
+
+    def leaving(self) -> np.ndarray:
+        """Input positions of rows that reached the old stage and no longer reach it."""
+        return np.setdiff1d(self.old.rows, self.rows)
+
+
+@dataclass
+class StageUpdate:
+    """A stage's new result: ``kept`` (stage positions), new records in ``selection`` and
+    the old records kept as they were (``copied``, input positions)."""
+
+    kept: np.ndarray
+    selection: Selection
+    copied: np.ndarray
+    report: dict[str, Any]
+    lists: tuple[np.ndarray, np.ndarray] | None = None
+    exact: bool = True
+    scores: dict[str, np.ndarray] = field(default_factory=dict)
+
+
+def old_fate(inp: StageInput, kept: np.ndarray) -> dict[str, int]:
+    """How the update moved old rows: removed now though kept before, and restored."""
+    rows = inp.rows
+    was_removed = np.isin(rows, inp.old.removed)
+    old_row = np.isin(rows, inp.old.rows)
+    now_kept = np.zeros(len(rows), dtype=bool)
+    now_kept[kept] = True
+    return {"old_rows_removed_now": int((old_row & ~was_removed & ~now_kept).sum()),
+            "old_rows_restored": int((old_row & was_removed & now_kept).sum())}
+
+
+def full_rerun(inp: StageInput, why: str) -> StageUpdate:
+    """Run the stage again on all its rows: the same result as a full run, by definition."""
+    sub = inp.prep.space.subset(inp.active)
+    with sharing_lists(sub.matrix) as kept:
+        sel = run_stage(inp.stage, sub, inp.labels, inp.protected, inp.seed)
+    lists = kept.pair() if METHODS[inp.stage.method].judged_by_lists else None
+    report = {"mode": "full rerun", "why": why, "old_rows_rejudged": int(
+        np.isin(inp.rows, inp.old.rows).sum()), **old_fate(inp, sel.kept)}
+    return StageUpdate(sel.kept, sel, np.zeros(0, dtype=np.int64), report, lists,
+                       scores=sel.scores)
