@@ -40,7 +40,7 @@ class ListChanges:
     @property
     def changed(self) -> np.ndarray:
         """Every stage position whose list is new or changed."""
-        return np.union1d(np.union1d(self.entering, self.lost), self.merged)
+        return np.unique(np.concatenate([self.entering, self.lost, self.merged]))
 
 
 def refresh_lists(space: Space, rows: np.ndarray, old_rows: np.ndarray, old_dist: np.ndarray,
@@ -64,20 +64,25 @@ def refresh_lists(space: Space, rows: np.ndarray, old_rows: np.ndarray, old_dist
     ([[1], [3], [3], [2]], [1, 2], [3])
     """
     k = old_nbr.shape[1]
-    staying = np.isin(old_rows, rows)
+    member = np.zeros(int(max(rows.max(initial=-1), old_rows.max(initial=-1))) + 1, dtype=bool)
+    member[rows] = True  # by input position: reaches the stage now
+    staying = member[old_rows]
     here = np.searchsorted(rows, old_rows[staying])  # stage positions of the staying rows
     listed = old_nbr[staying]
-    gone = ~np.isin(listed, rows)
+    gone = ~member[listed]
     dist = np.empty((len(rows), k))
     nbr = np.full((len(rows), k), -1, dtype=np.int64)
     dist[here] = old_dist[staying]
     nbr[here] = np.searchsorted(rows, np.where(gone, rows[0], listed))
-    entering = np.setdiff1d(np.arange(len(rows)), here)
+    searched = np.ones(len(rows), dtype=bool)
+    searched[here] = False
+    entering = np.flatnonzero(searched)
     lost = here[gone.any(axis=1)]
-    fresh = np.union1d(entering, lost)
+    searched[lost] = True
+    fresh = np.flatnonzero(searched)
     if len(fresh):
         dist[fresh], nbr[fresh] = kneighbors(space, k, queries=fresh)
-    stable = np.setdiff1d(here, lost)
+    stable = here[~gone.any(axis=1)]
     merged = _merge_entering(space, dist, nbr, stable, entering)
     return dist, nbr, ListChanges(entering, lost, merged)
 

@@ -29,7 +29,7 @@ from curate.methods.condensing import _absorbed
 from curate.neighbours.search import kneighbors
 from curate.neighbours.within import within
 from curate.pipeline.stage import removable_rows
-from curate.pipeline.update_records import StageInput, StageUpdate, full_rerun
+from curate.pipeline.update_records import StageInput, StageUpdate, among, full_rerun
 from curate.space.points import Space
 
 __all__ = ["condense_update"]
@@ -98,7 +98,7 @@ def _old_nearest(inp: StageInput, nearest: _Nearest, in_store: np.ndarray) -> No
     pos = rec["position"].to_numpy()
     kept_at = rec["kept_position"].fill_null(-1).to_numpy()
     dist = rec["neighbour_distances"].list.first().fill_null(np.inf).to_numpy()
-    here = np.isin(pos, inp.rows) & np.isin(kept_at, inp.rows)
+    here = among(pos, inp.rows) & among(kept_at, inp.rows)
     local = np.searchsorted(inp.rows, pos[here])
     keeper = np.searchsorted(inp.rows, kept_at[here])
     ok = in_store[keeper] & ~in_store[local]
@@ -115,7 +115,7 @@ def condense_update(inp: StageInput) -> StageUpdate:
     sub = inp.prep.space.subset(inp.active)
     names, codes = encode(inp.labels)
     n = len(inp.active)
-    in_store = np.isin(inp.rows, np.setdiff1d(inp.old.rows, inp.old.removed))
+    in_store = inp.was_there & ~inp.was_removed
     if not in_store.any():
         return full_rerun(inp, "none of the rows it kept reach it any more")
     in_store |= ~removable_rows(inp.stage, inp.labels, inp.protected)
@@ -124,13 +124,15 @@ def condense_update(inp: StageInput) -> StageUpdate:
     before = (nearest.near.copy(), nearest.best.copy())
     pending = np.flatnonzero(~in_store & (nearest.near < 0))
     nearest.look_up(pending, np.flatnonzero(in_store))
-    watch, batch, rounds = pending, np.flatnonzero(in_store & ~np.isin(inp.rows, inp.old.rows)), 0
+    watch, batch, rounds = pending, np.flatnonzero(in_store & ~inp.was_there), 0
     switched_total = np.zeros(n, dtype=bool)
     while True:
         added, more = _settle(nearest, codes, in_store, watch)
         rounds += more
         batch = np.union1d(batch, added)
-        others = np.flatnonzero(~in_store & ~np.isin(np.arange(n), watch))
+        looked = np.zeros(n, dtype=bool)
+        looked[watch] = True
+        others = np.flatnonzero(~in_store & ~looked)
         switched = nearest.improve(others, batch)
         switched_total[switched] = True
         batch = np.zeros(0, dtype=np.int64)
@@ -152,14 +154,14 @@ def _result(inp: StageInput, nearest: _Nearest, before: tuple[np.ndarray, np.nda
     sel = out.selection(info={"steps": steps, "update_rounds": rounds})
     copied = inp.rows[~in_store & ~fresh]
     kept = np.flatnonzero(in_store)
-    old_row = np.isin(inp.rows, inp.old.rows)
+    old_row = inp.was_there
     orphans = int(old_row[pending].sum())
     why = {"its kept row left the stage": orphans,
            "a row added to the kept rows is nearer": int((switched & old_row).sum())}
     report = {"mode": "incremental", "rows_entering": int((~old_row).sum()),
               "old_rows_rejudged": int(sum(why.values())), "rejudged_because": why,
               "new_rows_kept": int((in_store & ~old_row).sum()),
-              "old_rows_restored": int((in_store & np.isin(inp.rows, inp.old.removed)).sum()),
+              "old_rows_restored": int((in_store & inp.was_removed).sum()),
               "old_rows_removed_now": 0,
               "note": "the kept rows stay consistent (Hart 1968) on every row of the stage, old "
                       "and new; old kept rows stay, so a full run may keep other rows"}

@@ -33,7 +33,7 @@ from curate.pipeline.records import Prepared, RunResult, StageOutcome
 from curate.pipeline.stage import safety_breach
 from curate.pipeline.state import RunState
 from curate.pipeline.summary import build_summary
-from curate.pipeline.update_records import OldStage, StageInput, StageUpdate
+from curate.pipeline.update_records import OldStage, StageInput, StageUpdate, among
 from curate.pipeline.update_stage import update_stage
 
 __all__ = ["old_stages", "update_stages"]
@@ -65,13 +65,18 @@ def old_stages(state: RunState, prep: Prepared) -> list[OldStage]:
         out.append(OldStage(rows, removed, mine, lists, dict(facts.get("info", {})),
                             protected.filter(protected.is_in(rows)).to_numpy(),
                             facts.get("metric", prep.space.metric)))
-        rows = np.setdiff1d(rows, removed)
+        rows = rows[~among(rows, removed)]
     return out
+
+
+def _records_at(records: pl.DataFrame, positions: np.ndarray) -> pl.DataFrame:
+    """The old records of the rows at these input positions."""
+    return records.filter(pl.col("position").is_in(pl.Series(positions).implode()))
 
 
 def _summary_selection(upd: StageUpdate, inp: StageInput) -> Selection:
     """The stage's whole result for the summary: new and copied removals together."""
-    copied = inp.old.records.filter(pl.col("position").is_in(upd.copied.tolist()))
+    copied = _records_at(inp.old.records, upd.copied)
     local = np.searchsorted(inp.rows, copied["position"].to_numpy())
     removed = np.concatenate([upd.selection.removed, local]).astype(np.int64)
     reasons = list(upd.selection.reason) + copied["reason"].to_list()
@@ -134,7 +139,7 @@ def update_stages(prep: Prepared, state: RunState,
         if breach is not None:
             raise breach
         _record(prep, audit, stage, active, upd.selection)
-        copied.append(old.records.filter(pl.col("position").is_in(upd.copied.tolist())))
+        copied.append(_records_at(old.records, upd.copied))
         whole = _summary_selection(upd, inp)
         whole.info["protected_spared"] = _spare(prep, spared, inp, upd)
         for name, values in upd.scores.items():

@@ -35,7 +35,7 @@ from curate.neighbours.refresh import refresh_lists
 from curate.neighbours.search import radius_neighbors
 from curate.pipeline.stage import removable_rows, run_stage
 from curate.pipeline.update_condense import condense_update
-from curate.pipeline.update_records import StageInput, StageUpdate, full_rerun, old_fate
+from curate.pipeline.update_records import StageInput, StageUpdate, among, full_rerun, old_fate
 from curate.space.points import Space
 
 __all__ = ["update_stage"]
@@ -54,8 +54,7 @@ def _listed(inp: StageInput) -> StageUpdate:
     dist, nbr, changes = refresh_lists(sub, inp.rows, inp.old.rows, *inp.old.lists)
     with sharing_lists(sub.matrix, dist, nbr):
         sel = run_stage(inp.stage, sub, inp.labels, inp.protected, inp.seed)
-    old_here = np.isin(inp.rows, inp.old.rows)
-    why = {"a new or restored row entered its neighbour list": int(old_here[changes.merged].sum()),
+    why = {"a new or restored row entered its neighbour list": int(len(changes.merged)),
            "a listed neighbour left the stage": int(len(changes.lost))}
     moved = _decisions_moved(inp, sel, changes.changed)
     if moved:
@@ -71,8 +70,7 @@ def _decisions_moved(inp: StageInput, sel: Selection, changed: np.ndarray) -> in
     """Old rows whose list did not change but whose decision did (Tomek partners, NCR)."""
     removed_now = np.zeros(len(inp.rows), dtype=bool)
     removed_now[sel.removed] = True
-    before = np.isin(inp.rows, inp.old.removed)
-    moved = (removed_now != before) & np.isin(inp.rows, inp.old.rows)
+    moved = (removed_now != inp.was_removed) & inp.was_there
     moved[changed] = False
     return int(moved.sum())
 
@@ -84,7 +82,7 @@ def _removable_moved(inp: StageInput) -> bool:
     now = removable_rows(inp.stage, inp.labels, inp.protected)
     old_labels = inp.prep.space_labels[np.searchsorted(inp.prep.valid_positions, inp.old.rows)]
     before = removable_rows(inp.stage, old_labels, np.zeros(0, dtype=np.int64))
-    both = np.isin(inp.old.rows, inp.rows)
+    both = among(inp.old.rows, inp.rows)
     return bool(np.any(before[both] != now[np.searchsorted(inp.rows, inp.old.rows[both])]))
 
 
@@ -100,23 +98,23 @@ def _copies(inp: StageInput) -> StageUpdate:
     if _removable_moved(inp):
         return full_rerun(inp, "protected rows or a class restriction whose rows changed")
     prep = inp.prep
-    every = np.union1d(inp.active, np.searchsorted(prep.valid_positions, inp.leaving()))
+    every = np.sort(np.concatenate([inp.active, np.searchsorted(prep.valid_positions,
+                                                                inp.leaving())]))
     space = prep.space.subset(every)
     keys = _group_keys(space, prep.space_labels[every], inp.stage.method == "exact-duplicates")
-    moved = np.isin(every, inp.active[inp.entering()]) | ~np.isin(every, inp.active)
-    touched = np.isin(keys, keys[moved])
-    affected = np.flatnonzero(np.isin(inp.active, every[touched]))
+    moved = among(every, inp.active[inp.entering()]) | ~among(every, inp.active)
+    touched = among(keys, np.unique(keys[moved]))
+    affected = np.flatnonzero(among(inp.active, every[touched]))
     removable = removable_rows(inp.stage, inp.labels, inp.protected)
     sub = prep.space.subset(inp.active[affected])
     info = METHODS[inp.stage.method]
     part = info.func(sub, inp.labels[affected], removable=removable[affected], seed=inp.seed,
                      **dict(inp.stage.params))
     sel = _lift(part, affected, len(inp.active))
-    copied = np.setdiff1d(inp.old.removed, inp.rows[affected])
-    copied = copied[np.isin(copied, inp.rows)]
-    kept = np.setdiff1d(np.arange(len(inp.active)),
-                        np.union1d(sel.removed, np.searchsorted(inp.rows, copied)))
-    old_groups = int(np.isin(inp.rows[affected], inp.old.rows).sum())
+    copied = inp.old.removed[among(inp.old.removed, inp.rows)]
+    copied = copied[~among(copied, inp.rows[affected])]
+    kept = _kept(len(inp.active), sel.removed, np.searchsorted(inp.rows, copied))
+    old_groups = int(inp.was_there[affected].sum())
     report = {"mode": "incremental", "rows_entering": int(len(inp.entering())),
               "old_rows_rejudged": old_groups,
               "rejudged_because": {"a row of its group of equal rows entered or left": old_groups},
@@ -125,10 +123,18 @@ def _copies(inp: StageInput) -> StageUpdate:
     return StageUpdate(kept, sel, copied, report)
 
 
+def _kept(n: int, *removed: np.ndarray) -> np.ndarray:
+    """The positions of ``range(n)`` in none of the ``removed`` arrays."""
+    keep = np.ones(n, dtype=bool)
+    for gone in removed:
+        keep[gone] = False
+    return np.flatnonzero(keep)
+
+
 def _lift(part: Selection, where: np.ndarray, n: int) -> Selection:
     """A selection over the rows ``where`` of a stage, in the stage's positions."""
     kept_as = np.where(part.kept_as >= 0, where[np.maximum(part.kept_as, 0)], -1)
-    return replace(part, kept=np.setdiff1d(np.arange(n), where[part.removed]),
+    return replace(part, kept=_kept(n, where[part.removed]),
                    removed=where[part.removed], neighbours=[where[p] for p in part.neighbours],
                    kept_as=kept_as, groups=[where[g] for g in part.groups])
 
@@ -157,7 +163,7 @@ def _near(inp: StageInput) -> StageUpdate:
     dists: list[np.ndarray] = [np.zeros(0)] * n
     for i, p, d in zip(entering, nbr, dist, strict=True):
         lists[i], dists[i] = p, d
-    alive = ~np.isin(inp.rows, inp.old.removed)
+    alive = ~inp.was_removed
     only_new = np.zeros(n, dtype=bool)
     only_new[entering] = removable[entering]
     out = SelectionBuilder(n)
@@ -165,8 +171,8 @@ def _near(inp: StageInput) -> StageUpdate:
     sel = out.selection(info={"radius": float(params["radius"]),
                               "near_copies_removed_among_new_rows": len(out),
                               "new_rows_conflicting": int(sum(clash))})
-    copied = inp.old.removed[np.isin(inp.old.removed, inp.rows)]
-    kept = np.setdiff1d(np.arange(n), np.union1d(sel.removed, np.searchsorted(inp.rows, copied)))
+    copied = inp.old.removed[among(inp.old.removed, inp.rows)]
+    kept = _kept(n, sel.removed, np.searchsorted(inp.rows, copied))
     report = {"mode": "incremental", "rows_entering": int(len(entering)), "old_rows_rejudged": 0,
               "rejudged_because": {}, **old_fate(inp, kept)}
     return StageUpdate(kept, sel, copied, report)
