@@ -33,9 +33,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import shutil
 import sys
-import tempfile
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -46,7 +44,13 @@ import polars as pl
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from benchmarks.common import load_note, make_data, run_child, target_line  # noqa: E402
+from benchmarks.common import (  # noqa: E402
+    load_note,
+    make_data,
+    run_child,
+    scratch_folder,
+    target_line,
+)
 
 LABEL, ID = "label", "sample_id"
 PARTS = 4  # input files in the Parquet folder
@@ -263,8 +267,7 @@ def main() -> int:
     args = parser.parse_args()
     print(f"{args.rows} rows x {args.cols} columns, {args.classes} classes, {args.copies:.0%} "
           f"copies, {args.flips:.0%} flipped labels; nproc {os.cpu_count()}; start: {load_note()}")
-    folder = Path(tempfile.mkdtemp(prefix="curate-bench-"))
-    try:
+    with scratch_folder("curate-bench-", args.keep) as folder:
         start = time.perf_counter()
         frame, truth = build_table(args.rows, args.cols, args.classes, args.copies, args.flips,
                                    args.seed)
@@ -278,11 +281,6 @@ def main() -> int:
         report(frame, truth, exact, approx, args)
         print(f"end: {load_note()}")
         return 0 if exact.code == 0 and approx.code == 0 else 1
-    finally:
-        if args.keep:
-            print(f"kept {folder}")
-        else:
-            shutil.rmtree(folder, ignore_errors=True)
 
 
 if __name__ == "__main__":

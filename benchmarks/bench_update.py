@@ -29,9 +29,7 @@ from __future__ import annotations
 
 import argparse
 import json
-import shutil
 import sys
-import tempfile
 import time
 from pathlib import Path
 from typing import Any
@@ -42,7 +40,7 @@ import polars as pl
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from benchmarks.bench_pipeline import ID, build_table, pipeline_text, write_inputs  # noqa: E402
-from benchmarks.common import Child, load_note, run_child, target_line  # noqa: E402
+from benchmarks.common import Child, load_note, run_child, scratch_folder, target_line  # noqa: E402
 
 TARGET_SHARE = 0.05
 TARGET_ROWS, TARGET_NEW = 1_000_000, 10_000
@@ -122,8 +120,7 @@ def main() -> int:
     args = parser.parse_args()
     print(f"store {args.rows} rows + {args.new} new, {args.cols} columns, {args.classes} "
           f"classes; start: {load_note()}", flush=True)
-    folder = Path(tempfile.mkdtemp(prefix="curate-bench-update-"))
-    try:
+    with scratch_folder("curate-bench-update-", args.keep) as folder:
         start = time.perf_counter()
         frame, _ = build_table(args.rows + args.new, args.cols, args.classes, args.copies,
                                args.flips, args.seed)
@@ -149,11 +146,6 @@ def main() -> int:
         print("\n".join(report(store, upd, full, folder, args)))
         print(f"end: {load_note()}")
         return 0
-    finally:
-        if args.keep:
-            print(f"kept {folder}")
-        else:
-            shutil.rmtree(folder, ignore_errors=True)
 
 
 if __name__ == "__main__":

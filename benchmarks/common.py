@@ -15,18 +15,22 @@ code most. Compare ratios measured in one run, and say what the load was
 from __future__ import annotations
 
 import os
+import shutil
 import subprocess
+import tempfile
 import threading
 import time
 import tracemalloc
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-__all__ = ["Child", "Measurement", "load_note", "make_data", "measure", "run_child", "target_line"]
+__all__ = ["Child", "Measurement", "load_note", "make_data", "measure", "run_child",
+           "scratch_folder", "target_line"]
 
 
 def make_data(rows: int, cols: int = 20, classes: int = 3,
@@ -179,3 +183,25 @@ def run_child(cmd: list[str], prefix: str, timeout: float, cwd: Path | None = No
     if proc.stdout is not None:
         proc.stdout.close()
     return Child(seconds, usage.ru_maxrss / 1024, proc.returncode)
+
+
+@contextmanager
+def scratch_folder(prefix: str, keep: bool) -> Iterator[Path]:
+    """A temporary folder for a benchmark's files, removed at the end unless ``keep``.
+
+    Examples
+    --------
+    >>> with scratch_folder("curate-doc-", keep=False) as folder:
+    ...     folder.is_dir()
+    True
+    >>> folder.exists()
+    False
+    """
+    folder = Path(tempfile.mkdtemp(prefix=prefix))
+    try:
+        yield folder
+    finally:
+        if keep:
+            print(f"kept {folder}")
+        else:
+            shutil.rmtree(folder, ignore_errors=True)
