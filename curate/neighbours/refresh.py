@@ -5,7 +5,7 @@ distance broken by input position) changes only when
 
 * a row entering the stage is nearer than the k-th neighbour, or as near at a
   lower position: it is merged into the list, which needs only the distance
-  to the entering rows (found with :func:`curate.neighbours.within.within`,
+  to the entering rows (found with :func:`curate.neighbours.within.entering_neighbours`,
   one radius per row, the k-th distance);
 * a listed neighbour leaves the stage: the row is searched again in full.
 
@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from curate.neighbours.search import kneighbors
-from curate.neighbours.within import within
+from curate.neighbours.within import entering_neighbours
 from curate.space.points import Space
 
 __all__ = ["ListChanges", "refresh_lists"]
@@ -78,21 +78,23 @@ def refresh_lists(space: Space, rows: np.ndarray, old_rows: np.ndarray, old_dist
     searched[here] = False
     entering = np.flatnonzero(searched)
     lost = here[gone.any(axis=1)]
-    searched[lost] = True
-    fresh = np.flatnonzero(searched)
-    if len(fresh):
-        dist[fresh], nbr[fresh] = kneighbors(space, k, queries=fresh)
+    if len(lost):
+        dist[lost], nbr[lost] = kneighbors(space, k, queries=lost)
     stable = here[~gone.any(axis=1)]
-    merged = _merge_entering(space, dist, nbr, stable, entering)
+    radii = np.full(len(rows), -1.0)
+    radii[stable] = dist[stable, k - 1]
+    merged = np.zeros(0, dtype=np.int64)
+    if len(entering):
+        dist[entering], nbr[entering], near, p, d = entering_neighbours(space, k, entering, radii)
+        merged = _merge_entering(dist, nbr, near, p, d)
     return dist, nbr, ListChanges(entering, lost, merged)
 
 
-def _merge_entering(space: Space, dist: np.ndarray, nbr: np.ndarray, stable: np.ndarray,
-                    entering: np.ndarray) -> np.ndarray:
-    """Merge entering rows into the lists of ``stable`` rows they beat; return those rows."""
+def _merge_entering(dist: np.ndarray, nbr: np.ndarray, rows: np.ndarray, p: np.ndarray,
+                    d: np.ndarray) -> np.ndarray:
+    """Merge entering rows ``p`` (at distance ``d`` of ``rows``) into the lists of the rows
+    they beat; return those rows."""
     k = nbr.shape[1]
-    q, p, d = within(space, dist[stable, k - 1], queries=stable, reference=entering)
-    rows = stable[q]
     beats = (d < dist[rows, k - 1]) | ((d == dist[rows, k - 1]) & (p < nbr[rows, k - 1]))
     rows, p, d = rows[beats], p[beats], d[beats]
     touched = np.unique(rows)

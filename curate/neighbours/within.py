@@ -9,6 +9,11 @@ matrix-product tiles with a proven rounding bound, then exact float64
 distances); other metrics, and small queries, take direct distances. The
 distances returned are exactly the engine's (see :mod:`curate.neighbours._exact`),
 so they compare and tie with neighbour-list distances bit for bit.
+
+:func:`entering_neighbours` asks both questions of rows entering a stage at
+once (their own k nearest rows, and the rows they get within the k-th distance
+of): with the compiled engine, one pass over the pairs serves both
+(:mod:`._cross`); otherwise a k-nearest query and :func:`within`.
 """
 
 from __future__ import annotations
@@ -16,12 +21,17 @@ from __future__ import annotations
 import numpy as np
 
 from curate.neighbours import _fast
-from curate.neighbours._exact import rank_pairs
+from curate.neighbours._cross import cross_search
+from curate.neighbours._exact import exact_pairs, rank_pairs
 from curate.neighbours._plan import make_request, plan_for
 from curate.neighbours.backends import LP_METRICS, SMALL_PAIRS, choose_backend
+from curate.neighbours.calls import EngineCall, note
+from curate.neighbours.search import kneighbors
 from curate.space.points import Space
 
-__all__ = ["within"]
+__all__ = ["entering_neighbours", "within"]
+
+Found = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 
 
 def within(space: Space, radii: np.ndarray, *, queries: np.ndarray, reference: np.ndarray
@@ -93,3 +103,33 @@ def _ordered(found: list[tuple[np.ndarray, np.ndarray, np.ndarray]]
     dist = np.concatenate([f[2] for f in found]).astype(np.float64)
     order = np.lexsort((pos, dist, rows))
     return rows[order], pos[order], dist[order]
+
+
+def entering_neighbours(space: Space, k: int, entering: np.ndarray, radii: np.ndarray) -> Found:
+    """The k nearest rows of each ``entering`` row (itself left out), and every (row, entering
+    row) pair at distance <= ``radii[row]`` (``radii`` per row of the space; negative: none).
+
+    Returns ``(dist, pos, rows, entering_pos, pair_dist)``, the pairs with exact distances.
+
+    Examples
+    --------
+    >>> s = Space.from_matrix([[0.0], [1.0], [3.0], [1.2]])
+    >>> d, p, r, e, pd = entering_neighbours(s, 1, np.array([3]), np.array([1.5, 1.0, -1, -1]))
+    >>> p.tolist(), r.tolist(), e.tolist(), pd.round(2).tolist()
+    ([[1]], [0, 1], [3, 3], [1.2, 0.2])
+    """
+    entering = np.asarray(entering, dtype=np.int64)
+    backend, reason = choose_backend(space, len(entering), space.n)
+    if space.metric == "euclidean" and backend == "fast" and space.engine.cluster_address is None:
+        plan = plan_for(space.engine.memory_mb, len(entering), space.n, space.matrix.shape[1], k)
+        dist, pos, q, rows = cross_search(space.matrix, entering, np.arange(space.n), k, radii,
+                                          plan)
+        note(EngineCall(backend, f"{reason}; one pass serves the reverse question too", k,
+                        len(entering), space.n))
+        d = exact_pairs(space.matrix, rows, entering[q], space.metric)
+        keep = d <= radii[rows]
+        return dist, pos, rows[keep], entering[q][keep], d[keep]
+    dist, pos = kneighbors(space, k, queries=entering)
+    asked = np.flatnonzero(radii >= 0)
+    q, p, d = within(space, radii[asked], queries=asked, reference=entering)
+    return dist, pos, asked[q], p, d

@@ -91,3 +91,15 @@ def test_update_in_hvdm_space_equals_full_run(tmp_path: Path) -> None:
     case = run_and_update(tmp_path, table, pipeline([EDITING["enn"] | {"max_removed_share": 0.9}]),
                           0.8, space={"distance": "hvdm"})
     assert_same_as_full_run(case)
+
+
+@pytest.mark.parametrize("method", ["enn", "ncr"])
+def test_update_with_the_compiled_engine_equals_full_run(tmp_path: Path, method: str) -> None:
+    """The compiled engine answers an update's two questions (the new rows' own lists, the old
+    rows they get near to) in one pass; digits' exact distance ties included."""
+    table = open_table("digits", flip=0.1, seed=6, rows=600)
+    stage = EDITING[method] | {"max_removed_share": 0.9}
+    case = run_and_update(tmp_path, table, pipeline([stage], backend="fast"), 0.8)
+    assert_same_as_full_run(case)
+    engine = case.updated.summary["stages"][0]["info"]["engine"]
+    assert engine["backends"] == ["fast"]

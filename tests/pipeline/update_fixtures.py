@@ -80,11 +80,13 @@ class Case:
     old_rows: int
 
 
-def pipeline(stages: list[dict[str, Any]], **input_extra: Any) -> dict[str, Any]:
-    """A pipeline over ``part0.csv`` (label ``y``, id ``reading``) with these stages; no
-    report is written (its plots take most of the time on tables this small)."""
+def pipeline(stages: list[dict[str, Any]], backend: str = "auto",
+             **input_extra: Any) -> dict[str, Any]:
+    """A pipeline over ``part0.csv`` (label ``y``, id ``reading``) with these stages and
+    neighbour backend; no report is written (its plots take most of the time on tables this
+    small)."""
     return {"input": {"path": "part0.csv", "label": "y", "id": "reading"} | input_extra,
-            "stages": stages, "output": {"report": False}}
+            "stages": stages, "output": {"report": False}, "run": {"backend": backend}}
 
 
 def run_and_update(folder: Path, table: pl.DataFrame, pipe: dict[str, Any], share: float,
