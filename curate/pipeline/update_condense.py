@@ -43,11 +43,31 @@ class _Nearest:
         self.near = np.full(n, -1, dtype=np.int64)
         self.best = np.full(n, np.inf)
 
-    def look_up(self, rows: np.ndarray, members: np.ndarray) -> None:
-        """Set the nearest of ``members`` for each of ``rows`` (none of them a member)."""
+    def look_up(self, rows: np.ndarray, in_store: np.ndarray, inp: StageInput) -> None:
+        """Set each row's nearest member (none of ``rows`` is one): from an earlier stage's
+        lists where a listed row is a member, by a search among the members otherwise."""
+        rows = self._from_lists(rows, in_store, inp)
+        members = np.flatnonzero(in_store)
         if len(rows):
             d, p = kneighbors(self.space, 1, queries=rows, reference=members, exclude_self=False)
             self.near[rows], self.best[rows] = p[:, 0], d[:, 0]
+
+    def _from_lists(self, rows: np.ndarray, in_store: np.ndarray, inp: StageInput) -> np.ndarray:
+        """Answer the rows an earlier stage's list answers; return the rows left."""
+        lists = inp.earlier
+        if lists is None or len(rows) == 0:
+            return rows
+        at = np.searchsorted(lists.rows, inp.rows[rows])
+        listed = lists.nbr[at]
+        member = np.zeros(int(max(lists.rows.max(), inp.rows.max())) + 1, dtype=bool)
+        member[inp.rows[in_store]] = True
+        hit = member[listed]
+        found = hit.any(axis=1)
+        first = hit[found].argmax(axis=1)
+        done = rows[found]
+        self.near[done] = np.searchsorted(inp.rows, listed[found, first])
+        self.best[done] = lists.dist[at[found], first]
+        return rows[~found]
 
     def improve(self, rows: np.ndarray, added: np.ndarray) -> np.ndarray:
         """Switch ``rows`` to a row of ``added`` that is nearer (or as near, at a lower
@@ -123,7 +143,7 @@ def condense_update(inp: StageInput) -> StageUpdate:
     _old_nearest(inp, nearest, in_store)
     before = (nearest.near.copy(), nearest.best.copy())
     pending = np.flatnonzero(~in_store & (nearest.near < 0))
-    nearest.look_up(pending, np.flatnonzero(in_store))
+    nearest.look_up(pending, in_store, inp)
     watch, batch, rounds = pending, np.flatnonzero(in_store & ~inp.was_there), 0
     switched_total = np.zeros(n, dtype=bool)
     while True:

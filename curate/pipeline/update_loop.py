@@ -33,7 +33,7 @@ from curate.pipeline.records import Prepared, RunResult, StageOutcome
 from curate.pipeline.stage import safety_breach
 from curate.pipeline.state import RunState
 from curate.pipeline.summary import build_summary
-from curate.pipeline.update_records import OldStage, StageInput, StageUpdate, among
+from curate.pipeline.update_records import Listed, OldStage, StageInput, StageUpdate, among
 from curate.pipeline.update_stage import update_stage
 
 __all__ = ["old_stages", "update_stages"]
@@ -123,13 +123,14 @@ def update_stages(prep: Prepared, state: RunState,
     reports: list[dict[str, Any]] = []
     copied: list[pl.DataFrame] = []
     scores: dict[str, np.ndarray] = {}
+    earlier: Listed | None = None
     for number, (stage, old) in enumerate(zip(prep.spec.stages, old_stages(state, prep),
                                               strict=True), start=1):
         say(f"stage {number}/{len(prep.spec.stages)} {stage.name!r} ({stage.method}) "
             f"on {len(active)} rows")
         t0 = time.perf_counter()
         seed = stage.seed if stage.seed is not None else prep.spec.run.seed
-        inp = StageInput(prep, stage, active, old, seed)
+        inp = StageInput(prep, stage, active, old, seed, earlier)
         with recording() as calls:
             upd = update_stage(inp)
         if calls:
@@ -149,6 +150,8 @@ def update_stages(prep: Prepared, state: RunState,
                                      inp.rows[removed], seconds, inp.rows, upd.lists))
         reports.append({"name": stage.name, "method": stage.method, "exact": upd.exact,
                         **upd.report, "seconds": round(seconds, 4)})
+        if upd.lists is not None:
+            earlier = Listed(inp.rows, upd.lists[0], inp.rows[upd.lists[1]])
         active = active[upd.kept]
         say(f"  removed {len(removed)} rows in {seconds:.2f} s ({upd.report['mode']})")
     order = {"schema": 0} | {s.name: i for i, s in enumerate(prep.spec.stages, start=1)}

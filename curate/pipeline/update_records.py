@@ -17,7 +17,8 @@ from curate.pipeline.records import Prepared
 from curate.pipeline.stage import run_stage
 from curate.settings import StageSettings
 
-__all__ = ["OldStage", "StageInput", "StageUpdate", "among", "full_rerun", "old_fate"]
+__all__ = ["Listed", "OldStage", "StageInput", "StageUpdate", "among", "full_rerun",
+           "old_fate"]
 
 
 @dataclass(frozen=True)
@@ -39,6 +40,18 @@ class OldStage:
 
 
 @dataclass(frozen=True)
+class Listed:
+    """An earlier stage's neighbour lists, brought up to date: ``rows`` (input positions,
+    ascending), ``dist`` and ``nbr`` (input positions). Its rows include every row that
+    reaches a later stage, so a list's first row in any subset of them is that subset's
+    nearest (ties by position, as in the list)."""
+
+    rows: np.ndarray
+    dist: np.ndarray
+    nbr: np.ndarray
+
+
+@dataclass(frozen=True)
 class StageInput:
     """One stage as the update meets it: settings, the rows reaching it and the old stage."""
 
@@ -47,6 +60,7 @@ class StageInput:
     active: np.ndarray
     old: OldStage
     seed: int
+    earlier: Listed | None = None
 
     @cached_property
     def rows(self) -> np.ndarray:

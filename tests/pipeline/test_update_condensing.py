@@ -13,8 +13,9 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+import polars as pl
 import pytest
-from sklearn.neighbors import KNeighborsClassifier
+from sklearn.neighbors import KNeighborsClassifier, NearestNeighbors
 from update_fixtures import Case, open_table, pipeline, run_and_update, stage_report
 
 FIRST = [{"name": "conflicts", "method": "conflicting-duplicates"},
@@ -55,33 +56,37 @@ def test_update_keeps_the_store_consistent(tmp_path: Path, method: str, share: f
     assert report["mode"] == "incremental" and report["equals_full_run"] is False
     assert "Hart 1968" in report["note"]
     assert case.updated.summary["update"]["equals_full_run"] is False
-    import polars as pl
-
     before = pl.read_parquet(tmp_path / "run0" / "kept.parquet")["row_id"].to_numpy()
     assert np.isin(before, case.updated.kept["row_id"].to_numpy()).all()
 
 
-def test_absorbed_rows_point_to_their_nearest_kept_row(tmp_path: Path) -> None:
-    """Every row removed as absorbed names as kept_as its nearest kept row (scikit-learn's
-    nearest neighbour among the kept rows), which carries its label, at the recorded
-    distance: new rows the store already labels correctly are removed that way."""
-    from sklearn.neighbors import NearestNeighbors
-
-    table = open_table("wine", flip=0.05, seed=22)
-    stages = FIRST + [{"name": "condense", "method": "fcnn", "max_removed_share": 0.99}]
-    case = run_and_update(tmp_path, table, pipeline(stages), 0.8, parts=2)
-    assert_consistent(case, "condense")
-    _, kept = _stage_rows(case, "condense")
+def assert_nearest_kept(case: Case, stage: str) -> None:
+    """Every row the stage removed as absorbed names as kept_as its nearest kept row
+    (scikit-learn's nearest neighbour among the stage's kept rows), at the recorded distance."""
+    _, kept = _stage_rows(case, stage)
     prep = case.updated.prepared
-    absorbed = case.updated.audit.filter(case.updated.audit["reason"] == "absorbed")
+    audit = case.updated.audit
+    absorbed = audit.filter((audit["reason"] == "absorbed") & (audit["stage"] == stage))
     ids = prep.ids.to_numpy()
-    rows = np.searchsorted(ids, absorbed["row_id"].to_numpy(), sorter=np.argsort(ids))
-    rows = np.argsort(ids)[rows]
+    order = np.argsort(ids)
+    rows = order[np.searchsorted(ids, absorbed["row_id"].to_numpy(), sorter=order)]
     dist, near = NearestNeighbors(n_neighbors=1, algorithm="brute").fit(
         prep.space.matrix[kept]).kneighbors(prep.space.matrix[rows])
     assert (ids[kept[near[:, 0]]] == absorbed["kept_as"].to_numpy()).all()
     recorded = np.array([d[0] for d in absorbed["neighbour_distances"].to_list()])
     assert np.allclose(recorded, dist[:, 0], rtol=1e-12, atol=1e-12)
+
+
+def test_absorbed_rows_point_to_their_nearest_kept_row(tmp_path: Path) -> None:
+    """New rows the store already labels correctly are removed as absorbed, pointing to
+    their nearest kept row, which carries their label; so do old rows whose nearest kept row
+    changed. Two updates in a row."""
+    table = open_table("wine", flip=0.05, seed=22)
+    stages = FIRST + [{"name": "condense", "method": "fcnn", "max_removed_share": 0.99}]
+    case = run_and_update(tmp_path, table, pipeline(stages), 0.8, parts=2)
+    assert_consistent(case, "condense")
+    assert_nearest_kept(case, "condense")
+    absorbed = case.updated.audit.filter(case.updated.audit["reason"] == "absorbed")
     new = set(table["reading"].slice(case.old_rows).to_list())
     assert any(r in new for r in absorbed["row_id"].to_list())
 
@@ -95,6 +100,7 @@ def test_demo_stages_after_an_update(tmp_path: Path) -> None:
               {"name": "condense", "method": "fcnn", "max_removed_share": 0.99}]
     case = run_and_update(tmp_path, table, pipeline(stages), 0.8)
     assert_consistent(case, "condense")
+    assert_nearest_kept(case, "condense")  # found through ENN's lists where they list one
     for stage in ("copies", "mislabels"):
         ours = case.updated.audit.filter(case.updated.audit["stage"] == stage).sort("row_id")
         full = case.oracle.audit.filter(case.oracle.audit["stage"] == stage).sort("row_id")
