@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from curate.settings import Param
+from curate.space.labels import encode_labels
 
 __all__ = ["MethodInfo", "Selection", "SelectionBuilder", "encode"]
 
@@ -155,5 +156,4 @@ def encode(labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     >>> names.tolist(), y.tolist()
     (['a', 'b'], [1, 0, 1])
     """
-    names, codes = np.unique(labels, return_inverse=True)
-    return names, codes.astype(np.int64).reshape(-1)
+    return encode_labels(labels)

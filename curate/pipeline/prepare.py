@@ -13,21 +13,26 @@ from curate.methods import METHODS
 from curate.pipeline.records import Prepared
 from curate.settings import Spec
 from curate.space.build import build_space
+from curate.space.labels import encode_labels
 
 __all__ = ["prepare", "prepare_frame"]
 
 
 def _labels_of_valid(frame: pl.DataFrame, label: str) -> np.ndarray:
     values = frame[label]
+    if values.dtype in (pl.Categorical, pl.String) and values.null_count() == 0:
+        # fixed-width text, not Python objects: every later count or comparison of the
+        # labels runs in compiled loops (on a million rows, seconds each as objects)
+        return values.cast(pl.String).to_numpy().astype(str)
     return values.cast(pl.String).to_numpy() if values.dtype == pl.Categorical else values.to_numpy()
 
 
 def _check_classes(spec: Spec, labels: np.ndarray) -> None:
     needs_two = [s for s in spec.stages if METHODS[s.method].compares_classes]
-    distinct = np.unique(labels)
+    distinct = encode_labels(labels)[0]
     if needs_two and len(distinct) < 2:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} has one class "
-                         f"only ({distinct[0]!r}); stage {needs_two[0].name!r} compares classes",
+                         f"only ({distinct.tolist()[0]!r}); stage {needs_two[0].name!r} compares classes",
                          hint="give a table with two or more classes, or drop the editing and "
                               "condensing stages")
 

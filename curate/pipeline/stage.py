@@ -21,6 +21,7 @@ from curate.methods.base import Selection
 from curate.neighbours.calls import recording, summarise_calls
 from curate.neighbours.search import require_neighbours
 from curate.settings import StageSettings
+from curate.space.labels import class_sizes, encode_labels
 from curate.space.points import Space
 
 __all__ = ["Step", "check_k", "removable_rows", "run_stage", "run_step", "safety_breach",
@@ -28,21 +29,25 @@ __all__ = ["Step", "check_k", "removable_rows", "run_stage", "run_step", "safety
 
 
 def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:
-    """Rows the stage may remove: of the classes it names, and not protected."""
-    text = labels.astype(str)
+    """Rows the stage may remove: of the classes it names (compared as text), not protected."""
     if stage.classes == "all":
         mask = np.ones(len(labels), dtype=bool)
-    elif stage.classes == "all-but-smallest":
-        values, counts = np.unique(text, return_counts=True)
-        smallest = values[np.lexsort((values, counts))[0]] if len(values) > 1 else None
-        mask = text != smallest
     else:
-        wanted = [str(c) for c in stage.classes]
-        unknown = sorted(set(wanted) - set(text))
-        if unknown:
-            raise UsageError(f"stage {stage.name!r}: classes {unknown} do not occur in its input",
-                             hint=f"use labels that occur: {', '.join(sorted(set(text))[:10])}")
-        mask = np.isin(text, wanted)
+        names, codes = encode_labels(labels)
+        text = np.asarray(names).astype(str)
+        if stage.classes == "all-but-smallest":
+            values, counts = class_sizes(labels)
+            smallest = values[np.lexsort((values, counts))[0]] if len(values) > 1 else None
+            chosen = text != smallest
+        else:
+            wanted = [str(c) for c in stage.classes]
+            unknown = sorted(set(wanted) - set(text.tolist()))
+            if unknown:
+                raise UsageError(f"stage {stage.name!r}: classes {unknown} do not occur in its "
+                                 "input", hint="use labels that occur: "
+                                               f"{', '.join(sorted(set(text.tolist()))[:10])}")
+            chosen = np.isin(text, wanted)
+        mask = chosen[codes]
     mask[protected] = False
     return mask
 
@@ -53,8 +58,8 @@ def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> 
     if not isinstance(k, int):
         return
     require_neighbours(k, len(labels), where=f"stage {stage.name!r}: ")
-    values, counts = np.unique(labels[removable].astype(str), return_counts=True)
-    sizes = dict(zip(*np.unique(labels.astype(str), return_counts=True), strict=True))
+    values, _ = class_sizes(labels[removable])
+    sizes = dict(zip(*class_sizes(labels), strict=True))
     small = [str(v) for v in values if sizes[v] <= k]
     if small and METHODS[stage.method].compares_classes:
         raise UsageError(f"stage {stage.name!r}: k = {k} is not below the size of class "
@@ -69,9 +74,8 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
     """The error a run stops with when the stage removes too much of a class, else None."""
     if stage.max_removed_share >= 1.0 or len(removed_local) == 0:
         return None
-    values, entering = np.unique(labels.astype(str), return_counts=True)
-    leaving = dict(zip(*np.unique(labels[removed_local].astype(str), return_counts=True),
-                       strict=True))
+    values, entering = class_sizes(labels)
+    leaving = dict(zip(*class_sizes(labels[removed_local]), strict=True))
     for value, total in zip(values.tolist(), entering, strict=True):
         share = leaving.get(value, 0) / total
         if share > stage.max_removed_share:
