@@ -14,6 +14,8 @@ from curate.space.points import Space
 
 __all__ = ["add_vote_records", "describe_votes", "enn_pass", "misclassified", "vote_counts"]
 
+MANY = 64  # from this many records on, words are built once per distinct vote
+
 
 def vote_counts(codes: np.ndarray, neighbour_pos: np.ndarray, n_classes: int) -> np.ndarray:
     """Count neighbour labels per row: an ``(n, n_classes)`` integer matrix."""
@@ -103,8 +105,18 @@ def add_vote_records(out: SelectionBuilder, positions: np.ndarray, rows: np.ndar
     >>> out.selection().detail
     ["2 of its 2 nearest neighbours are labelled 'ok', none 'worn' (its own label)"]
     """
-    for pos, row in zip(positions, rows, strict=True):
-        counts = np.bincount(codes[nbr[row]], minlength=len(names))
-        out.add(int(pos), "knn-disagrees",
-                describe_votes(counts, names, int(codes[pos])) + suffix,
-                neighbours=nbr[row], distances=dist[row], step=step)
+    positions, rows = np.asarray(positions, dtype=np.int64), np.asarray(rows, dtype=np.int64)
+    if len(positions) < MANY:
+        for pos, row in zip(positions, rows, strict=True):
+            counts = np.bincount(codes[nbr[row]], minlength=len(names))
+            out.add(int(pos), "knn-disagrees",
+                    describe_votes(counts, names, int(codes[pos])) + suffix,
+                    neighbours=nbr[row], distances=dist[row], step=step)
+        return
+    # Many rows share a vote (counts and own label): word each distinct vote once.
+    lines = nbr[rows]
+    votes = np.column_stack([vote_counts(codes, lines, len(names)), codes[positions]])
+    distinct, which = np.unique(votes, axis=0, return_inverse=True)
+    words = [describe_votes(v[:-1], names, int(v[-1])) + suffix for v in distinct]
+    out.add_many(positions, "knn-disagrees", [words[w] for w in which.reshape(-1)],
+                 neighbours=lines, distances=dist[rows], step=step)

@@ -125,6 +125,26 @@ class SelectionBuilder:
         self._kept_as.append(int(kept_as))
         self._step.append(int(step))
 
+    def add_many(self, positions: np.ndarray, reason: str, details: Sequence[str], *,
+                 neighbours: np.ndarray, distances: np.ndarray, step: int = 1) -> None:
+        """Record that ``positions`` leave, one row of ``neighbours``/``distances`` each.
+
+        Examples
+        --------
+        >>> r = SelectionBuilder(3)
+        >>> r.add_many(np.array([0, 2]), "why", ["a", "b"], neighbours=np.array([[1], [1]]),
+        ...            distances=np.array([[0.5], [0.7]]))
+        >>> r.selection().removed.tolist()
+        [0, 2]
+        """
+        self._pos.extend(np.asarray(positions, dtype=np.int64).tolist())
+        self._reason.extend([reason] * len(positions))
+        self._detail.extend(details)
+        self._nbr.extend(np.asarray(neighbours, dtype=np.int64))
+        self._dist.extend(np.asarray(distances, dtype=np.float64))
+        self._kept_as.extend([-1] * len(positions))
+        self._step.extend([int(step)] * len(positions))
+
     def selection(self, info: dict[str, Any] | None = None,
                   groups: list[np.ndarray] | None = None) -> Selection:
         """Build the Selection; raise if a position was removed twice."""
