@@ -47,9 +47,12 @@ def _positions(state: RunState) -> pl.DataFrame:
 def old_stages(state: RunState, prep: Prepared) -> list[OldStage]:
     """What each stage of the run did, in input positions (old rows keep theirs)."""
     where = _positions(state)
-    records = state.audit.join(where, on="row_id", how="left").join(
+    # join a slim frame: the audit's list columns need not travel through the joins
+    slim = state.audit.select("row_id", "kept_as").join(where, on="row_id", how="left",
+                                                         maintain_order="left").join(
         where.rename({"row_id": "kept_as", "position": "kept_position"}), on="kept_as",
-        how="left")
+        how="left", maintain_order="left")
+    records = state.audit.with_columns(slim["position"], slim["kept_position"])
     protected_ids = pl.Series(state.state.get("protected", []), dtype=where["row_id"].dtype)
     protected = where.filter(pl.col("row_id").is_in(protected_ids.implode()))["position"]
     rows = np.flatnonzero(state.rows["valid"].to_numpy())
