@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 import polars as pl
 
-from curate.errors import InputError, UsageError, first_ids
+from curate.errors import InputError, PipelineFileError, UsageError, first_ids
 from curate.io.read import read_input
 from curate.pipeline.records import Prepared
 from curate.pipeline.state import RunState, settings_of, space_fingerprint
@@ -32,7 +32,12 @@ REFIT = "rerun everything with --refit (a full run on old and new rows)"
 def combined_input(state: RunState, new: Path, spec: Spec) -> tuple[pl.DataFrame, int]:
     """The run's input rows in input order followed by the new rows; and the old row count."""
     old = state.old_input()
-    fresh = read_input(new)
+    try:
+        fresh = read_input(new)
+    except PipelineFileError as err:
+        raise UsageError(f"new rows: {err.message}",
+                         hint="give --new (new= in Python) an existing CSV or Parquet file, a "
+                              "folder of them, or a glob") from None
     missing = [c for c in old.columns if c not in fresh.columns]
     extra = [c for c in fresh.columns if c not in old.columns]
     if missing or extra:

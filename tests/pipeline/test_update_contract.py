@@ -88,6 +88,14 @@ def test_new_rows_must_have_the_run_columns(tmp_path: Path) -> None:
         update(pipe, base=tmp_path, run=tmp_path / "run0", new=tmp_path / "part1.csv")
 
 
+def test_missing_new_rows_name_the_option(tmp_path: Path) -> None:
+    """A --new path that does not exist: exit code 2, the path and the option named."""
+    pipe = _run(tmp_path, open_table("wine", seed=49))
+    with pytest.raises(UsageError) as caught:
+        update(pipe, base=tmp_path, run=tmp_path / "run0", new=tmp_path / "nothing.csv")
+    assert "nothing.csv" in caught.value.message and "--new" in str(caught.value)
+
+
 def test_rows_outside_the_fitted_ranges_are_counted(tmp_path: Path) -> None:
     """The count equals the new rows with a value beyond the run rows' minimum or maximum
     (numpy on the raw values), and the space keeps the run's scaling."""
