@@ -3,16 +3,18 @@ write the run folder."""
 
 from __future__ import annotations
 
+import functools
 import json
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
-from curate.io.folder import write_run_folder
+from curate.io.output_checks import spec_inputs
+from curate.io.outputs import Claim, OutputFile, claim_output
 from curate.pipeline.loop import execute
 from curate.pipeline.prepare import prepare
 from curate.pipeline.records import RunResult
-from curate.pipeline.state import write_state
+from curate.pipeline.state import STATE_DIR, state_size, write_state
 from curate.pipeline.update import update_run
 from curate.report.html import render_run
 from curate.settings import Spec
@@ -36,7 +38,9 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
     (paths relative to ``base``) or a checked :class:`~curate.settings.Spec`.
-    Nothing is written unless ``write`` is true or ``out`` is given.
+    Nothing is written unless ``write`` is true or ``out`` is given; then the
+    output folder is checked and claimed before the work starts (see
+    :mod:`curate.io.outputs`).
 
     Examples
     --------
@@ -50,19 +54,14 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     (1, [4])
     """
     spec = _as_spec(pipeline, base)
-    result = execute(prepare(spec), progress=progress)
-    _write_if_asked(result, spec, out, overwrite, write)
+    if not write and out is None:
+        return execute(prepare(spec), progress=progress)
+    with claim_output(Path(out) if out is not None else spec.output.folder,
+                      overwrite=spec.output.overwrite if overwrite is None else overwrite,
+                      inputs=spec_inputs(spec)) as claim:
+        result = execute(prepare(spec), progress=progress)
+        write_result(result, claim, report=spec.output.report)
     return result
-
-
-def _write_if_asked(result: RunResult, spec: Spec, out: str | Path | None,
-                    overwrite: bool | None, write: bool) -> None:
-    """Write the run folder when ``write`` or ``out`` asks for it (at ``out``, else the
-    pipeline's ``[output] folder``)."""
-    if write or out is not None:
-        folder = Path(out) if out is not None else spec.output.folder
-        write_result(result, folder, spec.output.overwrite if overwrite is None else overwrite,
-                     report=spec.output.report)
 
 
 def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
@@ -75,8 +74,9 @@ def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
     its ``[input] path`` is not read: the old rows come from the run folder).
     ``new`` is a CSV or Parquet file, a folder of them or a glob, with the
     run's columns and ids it does not have. Nothing is written unless ``write``
-    is true or ``out`` is given; the folder is written all at once, as
-    :func:`curate.run` writes it, and ``run`` itself is only read.
+    is true or ``out`` is given; the output is claimed before the work starts and
+    written all at once, as :func:`curate.run` writes it. ``run`` itself is only
+    read, and the output may not be it (nor sit inside it, or hold it).
 
     Examples
     --------
@@ -93,28 +93,32 @@ def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
     ([6], True)
     """
     spec = _as_spec(pipeline, base)
-    result = update_run(spec, Path(run), Path(new), refit=refit, progress=progress)
-    _write_if_asked(result, spec, out, overwrite, write)
+    if not write and out is None:
+        return update_run(spec, Path(run), Path(new), refit=refit, progress=progress)
+    inputs = [*spec_inputs(spec), ("the run folder", Path(run)), ("the new rows", Path(new))]
+    with claim_output(Path(out) if out is not None else spec.output.folder,
+                      overwrite=spec.output.overwrite if overwrite is None else overwrite,
+                      inputs=inputs) as claim:
+        result = update_run(spec, Path(run), Path(new), refit=refit, progress=progress)
+        write_result(result, claim, report=spec.output.report)
     return result
 
 
-def write_result(result: RunResult, folder: Path, overwrite: bool, report: bool = True) -> None:
-    """Write kept, removed, audit, summary, report and update state into ``folder`` atomically.
+def write_result(result: RunResult, claim: Claim, report: bool = True) -> None:
+    """Write kept, removed, audit, summary and report as the run folder ``claim`` holds.
 
-    The files are those of :data:`curate.io.folder.RUN_FILES`, and the folder
-    ``update/`` that a later :func:`update` starts from
-    (:mod:`curate.pipeline.state`).
+    The files are those of :data:`curate.io.folder.RUN_FILES`, each with its
+    size in memory (for the message of a full disk), and the folder ``update/``
+    that a later :func:`update` starts from (:mod:`curate.pipeline.state`).
     """
-
-    def fill(tmp: Path) -> None:
-        result.kept.write_parquet(tmp / "kept.parquet")
-        result.removed.write_parquet(tmp / "removed.parquet")
-        result.audit.write_parquet(tmp / "audit.parquet")
-        if result.spared is not None:
-            result.spared.write_parquet(tmp / "protected.parquet")
-        (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, default=str) + "\n")
-        if report:
-            (tmp / "report.html").write_text(render_run(result), encoding="utf-8")
-        write_state(result, tmp)
-
-    write_run_folder(folder, overwrite, fill)
+    frames = [("kept.parquet", result.kept), ("removed.parquet", result.removed),
+              ("audit.parquet", result.audit), ("protected.parquet", result.spared)]
+    files = [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
+             for name, frame in frames if frame is not None]
+    files.append(OutputFile.text("summary.json",
+                                 json.dumps(result.summary, indent=2, default=str) + "\n"))
+    if report:
+        files.append(OutputFile.text("report.html", render_run(result)))
+    files.append(OutputFile(STATE_DIR, functools.partial(write_state, result),
+                            state_size(result)))
+    claim.write_folder(files, kind="run")

@@ -1,17 +1,24 @@
 """The one error tree of curate.
 
 Every error says what failed, where (file, key, column, class, first row ids
-and a count) and ends with a hint for the fix. The CLI prints
-``ErrorType: message`` and exits with the class's ``exit_code``:
+and a count) and ends with a hint for the fix. The CLI exits with the class's
+``exit_code``:
 
-* 2 :class:`UsageError`, :class:`PipelineFileError`, :class:`NeighbourCountError`;
+* 2 :class:`UsageError`, :class:`PipelineFileError`, :class:`NeighbourCountError`,
+  :class:`OutputError`;
 * 3 :class:`InputError`, :class:`SchemaFailure`;
 * 4 :class:`SafetyLimitError`;
 * 1 :class:`ClusterError`, and anything that is not a :class:`CurateError` (a bug).
 
-Warnings derive from :class:`CurateWarning`; the CLI prints them as
-``warning: message`` and goes on. This module imports nothing but the standard
-library, so every layer may use it.
+A run stopped by SIGTERM unwinds like Ctrl-C (:class:`Terminated`, exit 143;
+Ctrl-C exits with 130). The CLI prints ``error: message`` (the plain problem, no class name)
+and the ``hint:`` line.
+
+Warnings derive from :class:`CurateWarning`; the CLI prints each distinct one
+once as ``warning: message`` (none with ``--quiet``) and goes on. This module
+imports nothing but the standard library, so every layer may use it, with the
+helpers every message uses: :func:`quoted` prints a value as the user wrote it
+(never a numpy repr), :func:`counted` gets "1 row" and "2 rows" right.
 """
 
 from __future__ import annotations
@@ -25,11 +32,16 @@ __all__ = [
     "CurateWarning",
     "InputError",
     "NeighbourCountError",
+    "OutputError",
+    "OutputRecovered",
     "PipelineFileError",
     "SafetyLimitError",
     "SchemaFailure",
+    "Terminated",
     "UsageError",
+    "counted",
     "first_ids",
+    "quoted",
 ]
 
 
@@ -58,6 +70,11 @@ class UsageError(CurateError):
 
 class PipelineFileError(UsageError):
     """The pipeline file is missing, unreadable or has a bad key (exit code 2)."""
+
+
+class OutputError(UsageError):
+    """The output path cannot be written as asked: it is not curate's, it is busy, it
+    overlaps the input, it is not writable or its disk is full (exit code 2)."""
 
 
 class InputError(CurateError):
@@ -99,6 +116,16 @@ class ConstantColumnWarning(CurateWarning):
     """A feature column has one value only and contributes nothing to distances."""
 
 
+class Terminated(KeyboardInterrupt):
+    """The process got SIGTERM; raised like Ctrl-C so that every claim is released (exit 143)."""
+
+    exit_code = 143
+
+
+class OutputRecovered(CurateWarning):
+    """curate finished or undid an interrupted replace, or took over a dead run's lock."""
+
+
 def first_ids(ids: Sequence[object], limit: int = 5) -> str:
     """Name the first few ids and the count, for messages.
 
@@ -114,3 +141,29 @@ def first_ids(ids: Sequence[object], limit: int = 5) -> str:
     if count == 1:
         return f"1 row ({shown})"
     return f"{count} rows (first: {shown})"
+
+
+def quoted(value: object) -> str:
+    """A value in quotes as the user wrote it: numpy scalars print as plain Python values.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> quoted(np.str_("9")), quoted(np.int64(3)), quoted("seal-leak"), quoted(None)
+    ("'9'", '3', "'seal-leak'", 'None')
+    """
+    # numpy is not imported here: its scalars are recognised by their module and `item`.
+    if type(value).__module__ == "numpy" and hasattr(value, "item"):
+        value = value.item()  # type: ignore[union-attr]
+    return repr(value)
+
+
+def counted(count: int, word: str, plural: str | None = None) -> str:
+    """``count`` and the noun in the right number.
+
+    Examples
+    --------
+    >>> counted(1, "row"), counted(3, "row"), counted(1, "class", "classes"), counted(0, "stage")
+    ('1 row', '3 rows', '1 class', '0 stages')
+    """
+    return f"{count} {word if count == 1 else (plural or word + 's')}"

@@ -16,6 +16,8 @@ pipeline looks for.
 
 from __future__ import annotations
 
+import contextlib
+import warnings
 from typing import Any
 
 import numpy as np
@@ -25,7 +27,7 @@ from sklearn.utils import check_consistent_length
 from sklearn.utils.multiclass import check_classification_targets, type_of_target
 from sklearn.utils.validation import validate_data
 
-from curate.errors import UsageError
+from curate.errors import CurateWarning, UsageError, quoted
 from curate.io.schema import feature_kinds
 from curate.methods import METHODS
 from curate.methods.base import MethodInfo
@@ -57,6 +59,10 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         count as neighbours.
     seed : int
         Seed of the method's randomness (presentation orders, tie draws).
+    quiet : bool
+        Give no warnings of curate's own (such as a constant column). Each fit
+        warns once per problem; scikit-learn's cross-validation fits a fresh
+        sampler per fold, so ``quiet=True`` is how to silence the repeats.
     **method_params
         Keyword convenience: ``Sampler(method="enn", k=5)`` stores
         ``params={"k": 5}`` (merged over ``params`` into a new dictionary).
@@ -99,7 +105,8 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
 
     def __init__(self, method: str = "enn", params: dict[str, Any] | None = None, *,
                  scale: str = "range", distance: str = "euclidean", missing: str = "stop",
-                 classes: str | list[Any] = "all", seed: int = 0, **method_params: Any) -> None:
+                 classes: str | list[Any] = "all", seed: int = 0, quiet: bool = False,
+                 **method_params: Any) -> None:
         self.method = method
         # scikit-learn keeps constructor arguments untouched; the one exception,
         # keyword convenience, lands in ``params`` so that get_params sees it.
@@ -109,6 +116,7 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         self.missing = missing
         self.classes = classes
         self.seed = seed
+        self.quiet = quiet
 
     def set_params(self, **values: Any) -> Sampler:
         """Set parameters; names of the method's own parameters go into ``params``.
@@ -168,13 +176,17 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
                              f"n_samples = {frame.height}; give two or more rows")
         if info.compares_classes and len(np.unique(labels)) < 2:
             raise ValueError(f"method {info.key!r} compares classes, but y has one class only "
-                             f"({labels[0]!r}); give two or more classes")
-        space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance, self.missing),
-                            list(range(frame.height)), labels=labels)
+                             f"({quoted(labels[0])}); give two or more classes")
         stage = StageSettings(name=info.key, method=info.key, params=params,
                               max_removed_share=1.0, classes=self._classes())
-        sel = run_step(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed,
-                       list(range(frame.height))).selection
+        with warnings.catch_warnings() if self.quiet else contextlib.nullcontext():
+            if self.quiet:
+                warnings.simplefilter("ignore", CurateWarning)
+            space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance,
+                                                            self.missing),
+                                list(range(frame.height)), labels=labels)
+            sel = run_step(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed,
+                           list(range(frame.height))).selection
         self.sample_indices_ = np.sort(sel.kept)
         self.audit_ = _audit(info, sel, labels)
         self.scores_ = dict(sel.scores)

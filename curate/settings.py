@@ -27,7 +27,8 @@ __all__ = [
     "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "K_GRID", "LEARNED_WEIGHTS",
     "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "ClusterSettings", "ColumnRule",
     "Declared", "EngineSettings", "InputSettings", "OutputSettings", "Param", "RunSettings",
-    "SpaceSettings", "Spec", "StageSettings", "check_params", "local_workers",
+    "SpaceSettings", "Spec", "StageSettings", "canonical", "check_params", "local_workers",
+    "suggest",
 ]
 
 BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
@@ -40,6 +41,42 @@ NOMINAL_KINDS = ("category", "string", "bool")
 ON_INVALID = ("stop", "quarantine")
 CLASS_CHOICES = ("all", "all-but-smallest")
 K_GRID = tuple(range(1, 26, 2))  # k values `curate evaluate` scores by default
+
+
+def canonical(value: Any, allowed: tuple[Any, ...]) -> Any:
+    """``value`` as spelled in ``allowed``, letter case ignored for text; None when not allowed.
+
+    Allowed values are fixed lists of lowercase words, so "HVDM" can only mean "hvdm".
+
+    Examples
+    --------
+    >>> canonical("HVDM", ("heom", "hvdm")), canonical("hvd", ("heom", "hvdm"))
+    ('hvdm', None)
+    """
+    if value in allowed:
+        return value
+    if isinstance(value, str):
+        folded = [a for a in allowed if isinstance(a, str) and a.casefold() == value.casefold()]
+        if len(folded) == 1:
+            return folded[0]
+    return None
+
+
+def suggest(value: Any, known: tuple[Any, ...] | list[Any]) -> str:
+    """``"; did you mean 'x'?"`` for the known word closest to a misspelled one, else "".
+
+    Examples
+    --------
+    >>> suggest("mehtod", ["name", "method", "classes"])
+    "; did you mean 'method'?"
+    >>> suggest("zzz", ["name", "method"])
+    ''
+    """
+    import difflib  # only when a word is misspelled: `curate --help` stays light
+
+    words = [str(k) for k in known]
+    close = difflib.get_close_matches(str(value).casefold(), words, n=1, cutoff=0.6)
+    return f"; did you mean {close[0]!r}?" if close else ""
 
 
 @dataclass(frozen=True)
@@ -98,7 +135,7 @@ class Param:
         if not ok_type:
             return f"got {value!r}, expected {self.allowed()}"
         if self.choices is not None and value not in self.choices:
-            return f"got {value!r}, expected {self.allowed()}"
+            return f"got {value!r}, expected {self.allowed()}{suggest(value, self.choices)}"
         if self.low is not None and value < self.low:
             return f"got {value!r}, expected {self.allowed()}"
         if self.high is not None and value > self.high:
@@ -139,9 +176,12 @@ def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -
         param = declared.get(name)
         if param is None:
             raise UsageError(
-                f"{prefix}unknown parameter {name!r} for method {info.key!r}",
+                f"{prefix}unknown parameter {name!r} for method {info.key!r}"
+                + suggest(name, list(declared)),
                 hint=f"the parameters of {info.key} are: {', '.join(declared)}",
             )
+        if param.choices is not None:
+            value = canonical(value, param.choices) or value
         problem = param.problem(value)
         if problem is not None:
             raise UsageError(f"{prefix}parameter {name!r} {problem}",
@@ -196,9 +236,12 @@ class SpaceSettings:
         for key, value, allowed in (("scale", self.scale, SCALES),
                                     ("distance", self.distance, DISTANCES),
                                     ("missing", self.missing, MISSING_POLICIES)):
-            if value not in allowed:
-                raise PipelineFileError(f"[space] {key} = {value!r} is not allowed",
+            if canonical(value, allowed) is None:
+                raise PipelineFileError(f"[space] {key} = {value!r} is not allowed"
+                                        + suggest(value, allowed),
                                         hint=f"use one of {', '.join(map(repr, allowed))}")
+            # letter case is not a choice: "HVDM" is stored as "hvdm" (frozen, hence setattr)
+            object.__setattr__(self, key, canonical(value, allowed))
         if self.distance in ("heom", "hvdm") and self.scale != "range":
             raise PipelineFileError(
                 f"[space] scale = {self.scale!r} contradicts distance = {self.distance!r}, "

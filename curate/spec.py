@@ -32,8 +32,10 @@ from curate.settings import (
     SpaceSettings,
     Spec,
     StageSettings,
+    canonical,
     check_params,
     local_workers,
+    suggest,
 )
 
 __all__ = ["load_spec", "spec_from_dict"]
@@ -65,11 +67,16 @@ class _Where:
                 return number
         return None
 
-    def at(self, table: str, key: str | None = None, index: int = 0) -> str:
+    def here(self, table: str, key: str | None) -> str:
+        """File and line only, for messages that name the key themselves."""
+        line = self.line(table, key)
+        return self.source + (f", line {line}" if line else "")
+
+    def at(self, table: str, key: str | None = None, index: int = 0, name_key: bool = True) -> str:
+        """File, line of ``key`` and the place, e.g. ``p.toml, line 6: stage 1 key 'k'``."""
         line = self.line(table, key, index)
-        spot = f"[{table}]" + (f" key {key!r}" if key else "")
-        if table == "stages":
-            spot = f"stage {index + 1}" + (f" key {key!r}" if key else "")
+        named = f" key {key!r}" if key and name_key else ""
+        spot = f"stage {index + 1}{named}" if table == "stages" else f"[{table}]{named}"
         return f"{self.source}" + (f", line {line}" if line else "") + f": {spot}"
 
 
@@ -81,7 +88,7 @@ def _known(where: _Where, table: str, data: Mapping[str, Any], allowed: tuple[st
            index: int = 0) -> None:
     for key in data:
         if key not in allowed:
-            _fail(where, table, key, "is not a known key",
+            _fail(where, table, key, "is not a known key" + suggest(key, allowed),
                   f"use one of: {', '.join(allowed)}", index)
 
 
@@ -97,10 +104,10 @@ def _get(where: _Where, table: str, data: Mapping[str, Any], key: str, kind: typ
         names = " or ".join(k.__name__ for k in kinds)
         _fail(where, table, key, f"must be {names}, got {value!r}", f"write {key} as a {names}",
               index)
-    if choices is not None and value not in choices:
-        _fail(where, table, key, f"got {value!r}",
+    if choices is not None and canonical(value, choices) is None:
+        _fail(where, table, key, f"got {value!r}" + suggest(value, choices),
               f"use one of: {', '.join(repr(c) for c in choices)}", index)
-    return value
+    return value if choices is None else canonical(value, choices)
 
 
 def _columns(where: _Where, data: Mapping[str, Any]) -> tuple[ColumnRule, ...]:
@@ -173,44 +180,56 @@ def _space(where: _Where, data: Mapping[str, Any]) -> SpaceSettings:
                 _fail(where, "space", "weights", f"weight of {column!r} is {w!r}",
                       "weights are numbers >= 0")
         weights = {c: float(w) for c, w in weights.items()}
-    try:
-        return SpaceSettings(
-            scale=_get(where, "space", data, "scale", str, "range", SCALES),
-            distance=_get(where, "space", data, "distance", str, "euclidean", DISTANCES),
-            missing=_get(where, "space", data, "missing", str, "stop", MISSING_POLICIES),
-            weights=weights,  # type: ignore[arg-type]
-        )
-    except PipelineFileError as err:
-        raise PipelineFileError(f"{where.at('space')}: {err.message}", hint=err.hint) from None
+    scale = _get(where, "space", data, "scale", str, "range", SCALES)
+    distance = _get(where, "space", data, "distance", str, "euclidean", DISTANCES)
+    missing = _get(where, "space", data, "missing", str, "stop", MISSING_POLICIES)
+    try:  # the checks that span keys; each key alone was checked above, with its line
+        return SpaceSettings(scale=scale, distance=distance, missing=missing,
+                             weights=weights)  # type: ignore[arg-type]
+    except PipelineFileError as err:  # its message names [space] already: give the line only
+        raise PipelineFileError(f"{where.here('space', None)}: {err.message}",
+                                hint=err.hint) from None
 
 
 def _classes(where: _Where, body: Mapping[str, Any], index: int) -> str | tuple[Any, ...]:
     value = body.get("classes", "all")
     if isinstance(value, list) and value:
         return tuple(value)
-    if value in CLASS_CHOICES:
-        return str(value)
+    if isinstance(value, str) and canonical(value, CLASS_CHOICES) is not None:
+        return str(canonical(value, CLASS_CHOICES))
     _fail(where, "stages", "classes", f"got {value!r}",
           "use \"all\", \"all-but-smallest\" or a non-empty list of labels", index)
     return "all"
 
 
-def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
+def _method(where: _Where, body: Mapping[str, Any], index: int) -> str:
+    """The stage's method key; a missing one names the misspelled key that was meant."""
+    keys = sorted(METHODS)
     if "method" not in body:
+        typo = next((k for k in body if k not in STAGE_KEYS and suggest(k, ("method",))), None)
+        if typo is not None:
+            _fail(where, "stages", typo, "is not a known key" + suggest(typo, ("method",))
+                  + " The stage has no 'method'.", f"write method = one of: {', '.join(keys)}",
+                  index)
         _fail(where, "stages", None, "has no 'method'",
-              f"add method = one of: {', '.join(sorted(METHODS))}", index)
+              f"add method = one of: {', '.join(keys)}", index)
     key = body["method"]
-    if key not in METHODS:
-        _fail(where, "stages", "method", f"names an unknown method {key!r}",
-              f"use one of: {', '.join(sorted(METHODS))}", index)
+    if canonical(key, tuple(keys)) is None:
+        _fail(where, "stages", "method", f"names an unknown method {key!r}" + suggest(key, keys),
+              f"use one of: {', '.join(keys)}", index)
+    return str(canonical(key, tuple(keys)))
+
+
+def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
+    key = _method(where, body, index)
     info = METHODS[key]
     given = {k: v for k, v in body.items() if k not in STAGE_KEYS}
+    # check_params stops at the first bad parameter in this order: its line is the one named
+    bad = next((k for k in given if info.param(k) is None or info.param(k).problem(given[k])), None)  # type: ignore[union-attr]
     try:
-        params = check_params(info, given)
+        params = check_params(info, given, where=where.at("stages", bad, index, name_key=False))
     except UsageError as err:
-        bad = next((k for k in given if info.param(k) is None or info.param(k).problem(given[k])), None)  # type: ignore[union-attr]
-        raise PipelineFileError(f"{where.at('stages', bad, index)}: {err.message}",
-                                hint=err.hint) from None
+        raise PipelineFileError(err.message, hint=err.hint) from None
     share = _get(where, "stages", body, "max_removed_share", float, 0.5, index=index)
     if not 0.0 <= share <= 1.0:
         _fail(where, "stages", "max_removed_share", f"got {share!r}",
@@ -244,8 +263,9 @@ def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
             raise UsageError(f"[cluster] address {address!r} is not an address",
                              hint="write a scheduler address such as \"tcp://10.0.0.5:8786\", "
                                   "or \"local:2\"")
-    except UsageError as err:
-        _fail(where, "cluster", "address", err.message, str(err.hint))
+    except UsageError as err:  # its message names [cluster] address already: give the line only
+        raise PipelineFileError(f"{where.here('cluster', 'address')}: {err.message}",
+                                hint=err.hint) from None
     for key, low in (("partitions", 1), ("retries", 0), ("block_rows", 1)):
         value = _get(where, "cluster", data, key, int, None)
         if value is not None and value < low:

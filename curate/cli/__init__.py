@@ -5,8 +5,9 @@ One module per command group (:mod:`.pipeline`: run, check, distances; :mod:`.up
 :mod:`.demo`), each adding its commands with ``add_commands``; the text they
 print is built in :mod:`.render`. Only the standard library and curate's
 light modules are imported until a command runs, so ``curate --help`` starts
-fast. Only curate's own errors are caught: they print ``ErrorType: message``
-and exit with the error's code.
+fast. Only curate's own errors are caught: they print ``error: message`` and
+the ``hint:`` line, and exit with the error's code. Warnings are printed once
+each, after the command, and not at all with ``--quiet``.
 """
 
 from __future__ import annotations
@@ -35,6 +36,16 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _print_warnings(caught: list[warnings.WarningMessage]) -> None:
+    """Each distinct warning once: folds and repeated fits raise the same one many times."""
+    seen: set[str] = set()
+    for item in caught:
+        text = str(item.message)
+        if issubclass(item.category, UserWarning) and text not in seen:
+            seen.add(text)
+            print(f"warning: {text}", file=sys.stderr)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the `curate` command; returns the exit code."""
     args = _parser().parse_args(argv)
@@ -44,15 +55,14 @@ def main(argv: Sequence[str] | None = None) -> int:
             try:
                 return int(args.func(args))
             finally:
-                for item in caught:
-                    if issubclass(item.category, UserWarning):
-                        print(f"warning: {item.message}", file=sys.stderr)
+                if not getattr(args, "quiet", False):
+                    _print_warnings(caught)
     except CurateError as err:
-        print(f"{type(err).__name__}: {err}", file=sys.stderr)
+        print(f"error: {err}", file=sys.stderr)
         return err.exit_code
-    except KeyboardInterrupt:
+    except KeyboardInterrupt as stop:
         print("stopped: nothing was written", file=sys.stderr)
-        return 130
+        return int(getattr(stop, "exit_code", 130))
 
 
 if __name__ == "__main__":

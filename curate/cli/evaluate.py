@@ -5,6 +5,8 @@ from __future__ import annotations
 import argparse
 import json
 from collections.abc import Sequence
+from contextlib import nullcontext
+from pathlib import Path
 from typing import Any
 
 from curate.errors import UsageError
@@ -68,21 +70,32 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
     """Handler of ``curate evaluate``."""
     from curate.cli.progress import Reporter
     from curate.cli.render import evaluation_text
-    from curate.evaluation.crossval import evaluate_prepared, write_evaluation
+    from curate.evaluation.crossval import evaluate_prepared, evaluation_files
+    from curate.io.output_checks import spec_inputs
+    from curate.io.outputs import claim_output
     from curate.pipeline.prepare import prepare
     from curate.spec import load_spec
 
-    with Reporter(args.quiet) as say:
-        prep = prepare(load_spec(args.pipeline))
+    ks = parse_ks(args.k)
+    if args.truth is not None and not Path(args.truth).exists():
+        raise UsageError(f"--truth {args.truth} does not exist",
+                         hint="give the table of known faulty rows (CSV or Parquet, with the "
+                              "input's id column and 'fault'); a relative path starts where "
+                              "curate runs, not at the pipeline file")
+    spec = load_spec(args.pipeline)
+    reads = spec_inputs(spec) + ([("the fault table", Path(args.truth))] if args.truth else [])
+    out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
+    with Reporter(args.quiet) as say, out or nullcontext() as claim:
+        prep = prepare(spec)
         result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
-                                   ks=parse_ks(args.k), model=args.model,
+                                   ks=ks, model=args.model,
                                    model_params=parse_model_params(args.model_param),
                                    inject_noise=args.inject_noise,
                                    noise_towards=args.noise_towards, truth=args.truth,
                                    seed=args.seed, progress=say)
-        if args.out:
+        if claim is not None:
             say(f"writing {args.out}")
-            write_evaluation(args.out, result, prep, overwrite=args.overwrite)
+            claim.write_folder(evaluation_files(result, prep), kind="evaluation")
     print(json.dumps(result, indent=2) if args.json else evaluation_text(result))
     return 0
 
@@ -116,7 +129,7 @@ def add_commands(sub: Any) -> None:
                    "'fault') to score the removals against")
     p.add_argument("--seed", type=int, default=0, help="seed of the folds and the flips")
     p.add_argument("--out", metavar="FOLDER", help="write evaluation.json and report.html here")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing --out folder")
+    p.add_argument("--overwrite", action="store_true", help="replace an --out folder curate wrote")
     p.add_argument("--json", action="store_true", help="print the evaluation as JSON on stdout")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(func=cmd_evaluate)

@@ -13,9 +13,11 @@ from typing import Any
 
 import numpy as np
 
+from curate.errors import counted
 from curate.io.diff import RunDiff
 from curate.methods.base import MethodInfo
 from curate.report.html import over_limit_notes
+from curate.settings import Param
 
 __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "methods_text",
            "review_text", "summary_text"]
@@ -23,7 +25,7 @@ __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "m
 
 def summary_text(summary: dict[str, Any], out: Path) -> str:
     """A run's summary in a few lines: rows in, kept, removed, and each stage."""
-    lines = [f"{summary['rows_in']} rows in, {summary['rows_kept']} kept, "
+    lines = [f"{counted(summary['rows_in'], 'row')} in, {summary['rows_kept']} kept, "
              f"{summary['rows_removed']} removed ({summary['rows_quarantined']} quarantined)"]
     for st in summary["stages"]:
         reasons = ", ".join(f"{k} {v}" for k, v in st["by_reason"].items()) or "nothing"
@@ -69,18 +71,40 @@ def update_text(facts: Mapping[str, Any]) -> str:
     return "\n".join(lines)
 
 
+def _rounded(value: float | None) -> str:
+    return "-" if value is None else f"{value:.3g}"
+
+
 def distances_text(profile: Mapping[str, Any]) -> str:
-    """The distance profile of `curate distances`: quantiles, then one line per radius."""
-    lines: list[str] = []
-    for key, values in profile.items():
-        if key == "candidates":
-            lines.append("candidate radius   rows with a same-label row within   would remove   "
-                         "conflicting")
-            for c in values:
-                lines.append(f"  {c['radius']:<16.4g} {c['rows_with_same_label_within']:>30} "
-                             f"{c['would_remove']:>14} {c['conflicting_rows']:>13}")
-        else:
-            lines.append(f"{key}: {json.dumps(values)}")
+    """The distance profile of `curate distances` as two tables, numbers to 3 significant digits.
+
+    Examples
+    --------
+    >>> print(distances_text({"rows": 4, "metric": "euclidean", "rows_alone_in_their_label": 1,
+    ...     "nearest_same_label": {"0.5": 0.1234567}, "nearest_other_label": {"0.5": 1.5},
+    ...     "candidates": [{"radius": 0.2, "rows_with_same_label_within": 2, "would_remove": 1,
+    ...                     "conflicting_rows": 0}]}))
+    4 rows, euclidean distance; rows alone in their label: 1
+    distance to the nearest row       50%
+      with the same label           0.123
+      with another label              1.5
+    <BLANKLINE>
+    candidate radius   rows with a same-label row within   would remove   conflicting rows
+                 0.2                                   2              1                  0
+    """
+    quantiles = list(profile["nearest_same_label"])
+    lines = [f"{counted(profile['rows'], 'row')}, {profile.get('distance', profile['metric'])} "
+             f"distance; rows alone in their label: {profile['rows_alone_in_their_label']}",
+             "distance to the nearest row  " + "".join(f"{float(q):>8.0%}" for q in quantiles)]
+    for title, key in (("with the same label", "nearest_same_label"),
+                       ("with another label", "nearest_other_label")):
+        lines.append(f"  {title:<27}" + "".join(f"{_rounded(profile[key][q]):>8}"
+                                                for q in quantiles))
+    lines += ["", "candidate radius   rows with a same-label row within   would remove   "
+              "conflicting rows"]
+    for c in profile["candidates"]:
+        lines.append(f"{_rounded(c['radius']):>16}   {c['rows_with_same_label_within']:>33}   "
+                     f"{c['would_remove']:>12}   {c['conflicting_rows']:>16}")
     return "\n".join(lines)
 
 
@@ -99,33 +123,56 @@ def methods_text(methods: Mapping[str, MethodInfo]) -> str:
         lines.append(f"{info.key:<24} {info.name} ({info.family}; {info.reference})")
         lines.append(f"{'':<24} {info.purpose}")
         for p in info.params:
-            lines.append(f"{'':<26}{p.name} = {p.default!r}: {p.doc} ({p.allowed()})")
+            lines.append(f"{'':<26}{p.name} = {_default(p)}: {p.doc} ({p.allowed()})")
         lines.append("")
     return "\n".join(lines)
 
 
-def review_text(rows: int, run: str, out: str) -> str:
-    """What `curate review` wrote, and what the reviewer does next."""
-    return (f"wrote {rows} removed rows of {run} to {out}\n"
+def _default(param: Param) -> str:
+    """A parameter's default as a user would write it: "(required)" or "(none)" for no value.
+
+    Examples
+    --------
+    >>> _default(Param("radius", float, None, "r", required=True)), _default(Param("k", int, 3, ""))
+    ('(required)', '3')
+    """
+    if param.default is None:
+        return "(required)" if param.required else "(none)"
+    return json.dumps(param.default) if isinstance(param.default, str | bool) else str(param.default)
+
+
+def review_text(rows: int, run: str, out: str, protect_path: str) -> str:
+    """What `curate review` wrote, and what the reviewer does next.
+
+    ``protect_path`` is ``out`` as the pipeline file must name it (relative to its folder).
+    """
+    return (f"wrote {counted(rows, 'removed row')} of {run} to {out}\n"
             "write keep in the decision column of rows that must stay (empty or remove: no "
-            f"objection), then add to [input]: protect_file = \"{out}\"")
+            f"objection), then add to [input]: protect_file = {json.dumps(protect_path)}")
 
 
-def diff_text(diff: RunDiff) -> str:
-    """The diff as a table for the terminal: one line per row, then each run's detail."""
+def diff_text(diff: RunDiff, limit: int = 20) -> str:
+    """The diff as a table for the terminal: one line per row, then each run's detail.
+
+    Only the first ``limit`` changed rows are listed; a last line counts the rest and
+    points to ``--out`` (every changed row in a CSV file) and ``--json``.
+    """
     if diff.changes.height == 0:
         return f"no row changed fate from {diff.run_a} to {diff.run_b} ({diff.compared} compared)"
     counts = ", ".join(f"{n} {c}" for c, n in diff.counts().items())
-    lines = [f"{diff.changes.height} of {diff.compared} rows changed fate from {diff.run_a} (A) "
+    lines = [f"{diff.changes.height} of {counted(diff.compared, 'row')} changed fate from {diff.run_a} (A) "
              f"to {diff.run_b} (B): {counts}"]
     width = max(6, *(len(r) for r in diff.changes["row_id"]))
     lines.append(f"{'row_id':<{width}}  {'change':<21}  {'run A':<34}  run B")
-    for r in diff.changes.iter_rows(named=True):
+    for r in diff.changes.head(limit).iter_rows(named=True):
         a, b = (r[f"{p}_fate"] if r[f"{p}_fate"] == "kept"
                 else f"{r[f'{p}_stage']} / {r[f'{p}_reason']}" for p in ("a", "b"))
         lines.append(f"{r['row_id']:<{width}}  {r['change']:<21}  {a:<34}  {b}")
         lines += [f"{'':<{width}}  {p.upper()}: {r[f'{p}_detail']}" for p in ("a", "b")
                   if r[f"{p}_fate"] == "removed"]
+    if diff.changes.height > limit:
+        lines.append(f"... and {counted(diff.changes.height - limit, 'more row')}: write every "
+                     "changed row with --out FILE (CSV), or print them with --json")
     return "\n".join(lines)
 
 

@@ -10,6 +10,8 @@ import polars as pl
 
 from curate.api import run
 from curate.demo import data as demo_data
+from curate.io.output_checks import check_output
+from curate.io.outputs import write_marker
 from curate.methods import METHODS
 
 __all__ = ["demo_pipeline_text", "fault_catch", "run_demo"]
@@ -86,6 +88,10 @@ def run_demo(rows: int = 20000, out: Path = Path("demo"), seed: int = 7, quiet: 
              progress: Callable[[str], None] | None = None) -> str:
     """Write the demo data and pipeline under ``out``, run it, and describe the outcome."""
     out = Path(out)
+    if not (out.is_dir() and not any(out.iterdir())):
+        check_output(out, overwrite=True)  # replace only an earlier demo folder, never others
+    out.mkdir(parents=True, exist_ok=True)
+    write_marker(out, "demo", ["data", "pumps.toml", "run"])
     paths = demo_data.write(out / "data", rows=rows, seed=seed)
     pipeline = out / "pumps.toml"
     pipeline.write_text(demo_pipeline_text(), encoding="utf-8")

@@ -33,11 +33,12 @@ from typing import Any
 import numpy as np
 import polars as pl
 
-from curate.errors import InputError, UsageError
+from curate.errors import InputError, UsageError, quoted
 from curate.evaluation import stats
 from curate.evaluation.models import estimator, knn_votes, metrics, stack
 from curate.evaluation.stats import KNN, FoldOutcome, Key
-from curate.io.folder import write_run_folder
+from curate.io.output_checks import spec_inputs
+from curate.io.outputs import OutputFile, claim_output
 from curate.io.read import read_input
 from curate.pipeline.loop import execute
 from curate.pipeline.prepare import prepare
@@ -49,7 +50,7 @@ from curate.space.build import fit_space
 from curate.space.points import Space
 from curate.spec import load_spec
 
-__all__ = ["evaluate", "evaluate_prepared", "read_faults", "write_evaluation"]
+__all__ = ["evaluate", "evaluate_prepared", "evaluation_files", "read_faults", "write_evaluation"]
 
 TEST_NAME = ("corrected resampled t-test (Nadeau and Bengio 2003), two-sided, on per-fold "
              "accuracy, curated minus uncurated")
@@ -182,6 +183,10 @@ def read_faults(path: str | Path, prep: Prepared) -> np.ndarray:
     The table (CSV or Parquet) needs the input's id column (``row_id`` when the
     input has none) and a ``fault`` column; one row per faulty input row.
     """
+    if not Path(path).exists():
+        raise UsageError(f"truth file {path} (--truth) does not exist",
+                         hint="give the table of known faulty rows: CSV or Parquet with the "
+                              "input's id column and 'fault'")
     table = read_input(Path(path))
     id_column = prep.spec.input.id or "row_id"
     missing = [c for c in (id_column, "fault") if c not in table.columns]
@@ -209,13 +214,25 @@ def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], 
     values, counts = np.unique(prep.space_labels.astype(str), return_counts=True)
     if counts.min() < folds:
         small = values[np.argmin(counts)]
-        raise UsageError(f"{prep.spec.input.path}: class {small!r} has {counts.min()} rows, fewer "
+        raise UsageError(f"{prep.spec.input.path}: class {quoted(small)} has {counts.min()} rows, fewer "
                          f"than the {folds} folds, so some test folds would lack it",
                          hint=f"use --folds {max(2, int(counts.min()))} or fewer"
                               if counts.min() >= 2 else "give that class more rows")
     if towards is not None and str(towards) not in values.tolist():
         raise UsageError(f"--noise-towards {towards!r} is not a class of the input",
                          hint=f"use one of: {', '.join(values.tolist()[:10])}")
+
+
+def _check_ks(rows: int, folds: int, ks: Sequence[int]) -> None:
+    """Refuse a k larger than every training part, before any fold runs.
+
+    Up to the largest part a k is served: where a part is smaller, all its rows vote.
+    """
+    train = rows - rows // folds  # stratified test folds hold at least floor(rows / folds) rows
+    if ks and max(ks) > train:
+        raise UsageError(f"--k {max(ks)} asks for more neighbours than the {train} training rows "
+                         f"a fold has at most ({rows} rows, {folds} folds)",
+                         hint=f"use k values up to {train}, such as --k 1,3,5")
 
 
 def _valid_frame(prep: Prepared) -> pl.DataFrame:
@@ -232,6 +249,7 @@ def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,
     from sklearn.model_selection import StratifiedKFold
 
     _check_request(prep, folds, repeats, ks, inject_noise, noise_towards)
+    _check_ks(len(prep.space_labels), folds, ks)
     params = dict(model_params or {})
     if model is not None:
         estimator(model, params, seed)  # a bad name or parameter fails before any fold runs
@@ -314,13 +332,16 @@ def write_evaluation(folder: str | Path, result: dict[str, Any], prep: Prepared,
                      overwrite: bool = False) -> None:
     """Write ``evaluation.json`` and ``report.html`` (the full run's report plus the evaluation).
 
-    The run on all rows is executed here, for the report's pictures of what the
-    pipeline removes; the folder appears complete or not at all.
+    The folder appears complete or not at all, and replaces with ``overwrite``
+    only a folder curate wrote (see :mod:`curate.io.outputs`).
     """
-    run = execute(prep)
+    with claim_output(folder, overwrite=overwrite, inputs=spec_inputs(prep.spec)) as claim:
+        claim.write_folder(evaluation_files(result, prep), kind="evaluation")
 
-    def fill(tmp: Path) -> None:
-        (tmp / "evaluation.json").write_text(json.dumps(result, indent=2) + "\n")
-        (tmp / "report.html").write_text(render_run(run, evaluation=result), encoding="utf-8")
 
-    write_run_folder(Path(folder), overwrite, fill)
+def evaluation_files(result: dict[str, Any], prep: Prepared) -> list[OutputFile]:
+    """The files of an evaluation folder; the run on all rows is executed here, for the
+    report's pictures of what the pipeline removes."""
+    texts = {"evaluation.json": json.dumps(result, indent=2) + "\n",
+             "report.html": render_run(execute(prep), evaluation=result)}
+    return [OutputFile.text(name, text) for name, text in texts.items()]

@@ -12,14 +12,17 @@ The diff of two runs is in :mod:`curate.io.diff`.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from contextlib import AbstractContextManager
 from pathlib import Path
 
 import polars as pl
 
 from curate.errors import UsageError, first_ids
-from curate.io.folder import run_folder, write_new_file
+from curate.io.folder import run_folder
+from curate.io.outputs import Claim, claim_output
 
-__all__ = ["DECISIONS", "protected_ids", "review_table", "write_review"]
+__all__ = ["DECISIONS", "claim_csv", "protected_ids", "review_table", "write_review"]
 
 DECISIONS = {
     "keep": "protect the row: no stage may remove it when the pipeline file names this file",
@@ -80,9 +83,30 @@ def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -
     curate.errors.UsageError: no/such/run is not a run folder (it has no kept.parquet)
       hint: give a folder that `curate run` wrote (its [output] folder or --out)
     """
-    table = review_table(run)
-    write_new_file(Path(out), overwrite, table.write_csv)
+    run_folder(run)
+    with claim_csv(Path(out), overwrite, [Path(run)], ("row_id", "decision")) as claim:
+        table = review_table(run)
+        claim.write_file(table.write_csv, int(table.estimated_size()))
     return table.height
+
+
+def _made_by_curate(*columns: str) -> Callable[[Path], bool]:
+    """Recognise a CSV curate wrote (perhaps since edited in a spreadsheet) by its first columns."""
+    def check(path: Path) -> bool:
+        with open(path, encoding="utf-8-sig", errors="replace") as handle:
+            header = handle.readline().strip()
+        sep = _separator(header) or ","
+        return tuple(c.strip().strip('"') for c in header.split(sep)[:len(columns)]) == columns
+
+    return check
+
+
+def claim_csv(path: Path, overwrite: bool, reads: list[Path],
+              columns: tuple[str, str]) -> AbstractContextManager[Claim]:
+    """Check and claim the CSV ``path`` before the work (see :mod:`curate.io.outputs`);
+    ``overwrite`` replaces only a file whose header starts with ``columns`` (one curate wrote)."""
+    return claim_output(path, overwrite=overwrite, inputs=[("the run folder", r) for r in reads],
+                        folder=False, owned=_made_by_curate(*columns))
 
 
 def _separator(header: str) -> str | None:

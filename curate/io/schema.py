@@ -5,6 +5,7 @@ from __future__ import annotations
 import importlib
 import importlib.util
 import sys
+from collections.abc import Collection
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -16,7 +17,8 @@ import polars as pl
 from curate.errors import InputError, PipelineFileError, SchemaFailure, first_ids
 from curate.settings import ColumnRule, InputSettings
 
-__all__ = ["Validation", "feature_kinds", "load_model", "rules_schema", "validate"]
+__all__ = ["Validation", "describe_failures", "feature_kinds", "load_model", "rules_schema",
+           "validate"]
 
 _DTYPES = {"float": pl.Float64, "int": pl.Int64, "category": pl.String, "string": pl.String,
            "bool": pl.Boolean}
@@ -151,14 +153,32 @@ def _failure_table(err: pa.errors.SchemaErrors) -> pl.DataFrame:
     )
 
 
-def _describe(failures: pl.DataFrame, ids: list[Any]) -> str:
+def describe_failures(failures: pl.DataFrame, ids: list[Any], ruled: Collection[str] = ()) -> str:
+    """One line per column and failed check, naming the first rows and their count.
+
+    ``failures`` is a failure table (``position``, ``column``, ``check``,
+    ``value``); ``ids`` are the row ids by input position. A ``not_nullable``
+    failure of a column in ``ruled`` (columns with rules in the pipeline file)
+    says that those rules forbid gaps unless they say otherwise.
+
+    Examples
+    --------
+    >>> table = pl.DataFrame({"position": [3, 7], "column": ["depth", "depth"],
+    ...                       "check": ["not_nullable"] * 2, "value": [None, None]})
+    >>> print(describe_failures(table, list(range(10, 20)), ruled={"depth"}))
+    ... # doctest: +ELLIPSIS
+      column 'depth' failed not_nullable: 2 rows (first: 13, 17) (column rules default to nullable...)
+    """
     lines = []
     grouped = failures.group_by(["column", "check"], maintain_order=True).agg(pl.col("position"))
     for column, check, positions in grouped.iter_rows():
         where = f"column {column!r}" if column else "table"
         rows = [ids[p] for p in positions if p is not None]
         spot = first_ids(rows) if rows else "the whole column"
-        lines.append(f"  {where} failed {check}: {spot}")
+        note = (f" (column rules default to nullable = false; write nullable = true in "
+                f"[input.columns.{column}] to allow gaps)"
+                if check == "not_nullable" and column in ruled else "")
+        lines.append(f"  {where} failed {check}: {spot}{note}")
     return "\n".join(lines)
 
 
@@ -181,6 +201,7 @@ def validate(frame: pl.DataFrame, settings: InputSettings, ids: list[Any]) -> Va
     the failing rows are marked invalid and the rest is checked once more.
     """
     schema = rules_schema(settings)
+    ruled = {rule.name for rule in settings.columns}
     absent = [name for name, col in schema.columns.items()
               if name not in frame.columns and getattr(col, "required", True)]
     if absent:
@@ -198,7 +219,8 @@ def validate(frame: pl.DataFrame, settings: InputSettings, ids: list[Any]) -> Va
                                        & pl.col("check").str.starts_with("dtype")))
     if table_level.height or settings.on_invalid == "stop":
         shown = failures if settings.on_invalid == "stop" else table_level
-        raise SchemaFailure(f"input {settings.path} failed its schema:\n{_describe(shown, ids)}",
+        raise SchemaFailure(f"input {settings.path} failed its schema:\n"
+                            f"{describe_failures(shown, ids, ruled)}",
                             hint="fix the input, or the rules in the pipeline file; for bad rows "
                                  "only, on_invalid = \"quarantine\" in [input] sets them aside",
                             failures=shown)
@@ -206,13 +228,13 @@ def validate(frame: pl.DataFrame, settings: InputSettings, ids: list[Any]) -> Va
     valid[row_level["position"].unique().to_numpy()] = False
     if not valid.any():
         raise SchemaFailure(f"input {settings.path}: every row failed its schema:\n"
-                            f"{_describe(row_level, ids)}", hint="fix the input or the rules",
+                            f"{describe_failures(row_level, ids, ruled)}", hint="fix the input or the rules",
                             failures=row_level)
     rest = frame.filter(pl.Series(valid))
     checked, again = _run(schema, rest)
     if checked is None:
         rest_ids = [i for i, ok in zip(ids, valid, strict=True) if ok]
         raise SchemaFailure(f"input {settings.path} still fails its schema after quarantine:\n"
-                            f"{_describe(again, rest_ids)}", hint="fix the input or the rules",
+                            f"{describe_failures(again, rest_ids, ruled)}", hint="fix the input or the rules",
                             failures=again)
     return Validation(valid, row_level, checked)

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from curate.errors import counted
 from curate.methods._neighbourhood import interest_class, tomek_links
 from curate.methods._votes import add_vote_records, misclassified, vote_counts
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
@@ -101,16 +102,17 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     for i in np.flatnonzero(a1 | (a2 & removable)):
         near = sorted(crowd.get(int(i), []), key=lambda pair: (pair[1], pair[0]))
         if a1[i]:
-            also = (f"; it is also among the {k} nearest neighbours of {len(near)} outvoted "
-                    f"{label} row(s)") if near else ""
+            also = (f"; it is also among the {counted(k, 'nearest neighbour')} of "
+                    f"{len(near)} outvoted {label} {'row' if len(near) == 1 else 'rows'}"
+                    ) if near else ""
             add_vote_records(out, np.array([i]), np.array([i]), codes, names, nbr, dist,
                              suffix=also)
             continue
         mine = int(counts[near[0][0], target])
         out.add(int(i), "crowds-interest",
-                f"it is among the {k} nearest neighbours of {len(near)} {label} row(s) that "
-                f"their neighbours outvote (the nearest of them has {mine} of {k} votes "
-                f"for {label})",
+                f"it is among the {counted(k, 'nearest neighbour')} of "
+                f"{counted(len(near), label + ' row')} that their neighbours outvote (the "
+                f"nearest of them has {mine} of {k} votes for {label})",
                 neighbours=[c for c, _ in near], distances=[d for _, d in near])
     return out.selection(info={"interest": str(names[target]),
                                "cleaned_classes": [str(n) for n in names[cleanable]]})

@@ -21,7 +21,7 @@ import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-from curate.errors import UsageError
+from curate.errors import UsageError, counted
 from curate.methods._neighbourhood import nearest_enemy
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, radius_neighbors
@@ -230,7 +230,8 @@ def near_duplicates(space: Space, labels: np.ndarray, *, removable: np.ndarray, 
             for i in g[removable[g]]:
                 other = codes[nbr[i]] != codes[i]
                 out.add(int(i), "near-conflict",
-                        f"{int(other.sum())} rows with another label lie within the radius",
+                        f"{counted(int(other.sum()), 'row')} with another label "
+                        f"{'lies' if other.sum() == 1 else 'lie'} within the radius",
                         neighbours=nbr[i][other], distances=dist[i][other])
                 alive[i] = False
     dropped = len(out)

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from curate.errors import counted
 from curate.methods._neighbourhood import nearest_enemy
 from curate.methods._votes import describe_votes, enn_pass
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
@@ -174,8 +175,9 @@ def drop3(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int 
             continue
         lists.remove(int(p), assoc)
         out.add(int(p), "associates",
-                f"of its {len(group)} associates, {without_p} are classified correctly "
-                f"without it and {with_p} with it", neighbours=group,
+                f"of its {counted(len(group), 'associate')}, {without_p} "
+                f"{'is' if without_p == 1 else 'are'} classified correctly without it and "
+                f"{with_p} with it", neighbours=group,
                 distances=space.distances([p], group)[0] if group else [], step=visit)
     return out.selection(info={"noise_removed": len(noise),
                                "associates_removed": len(out) - len(noise)})

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from curate.errors import counted
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, require_neighbours
 from curate.settings import Param
@@ -57,7 +58,8 @@ def hardness(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: i
         for i in np.flatnonzero((scores >= threshold) & removable):
             other = int(round(scores[i] * k))
             out.add(int(i), "hard",
-                    f"{other} of its {k} nearest neighbours have another label "
+                    f"{other} of its {counted(k, 'nearest neighbour')} "
+                    f"{'has' if other == 1 else 'have'} another label "
                     f"(kDN {scores[i]:.3g} >= threshold {threshold:g})",
                     neighbours=nbr[i], distances=dist[i])
     sel = out.selection(info={"k": k, "threshold": threshold,

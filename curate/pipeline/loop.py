@@ -16,6 +16,7 @@ import numpy as np
 import polars as pl
 
 from curate.cluster.session import cluster_session
+from curate.errors import counted
 from curate.methods import METHODS
 from curate.methods.base import Selection
 from curate.neighbours.backends import choose_backend
@@ -46,7 +47,7 @@ def _quarantine(prep: Prepared, audit: AuditLog) -> None:
         pl.col("column").first(), pl.col("check").first(), pl.col("value").first(), pl.len())
     first = first.sort("position")
     details = [f"failed check {check} on column {column!r} (value {value!r})"
-               + (f" and {n - 1} more checks" if n > 1 else "")
+               + (f" and {counted(n - 1, 'more check')}" if n > 1 else "")
                for _, column, check, value, n in first.iter_rows()]
     pos = first["position"].to_numpy().astype(np.int64)
     audit.add(stage="schema", method="schema", positions=pos, reason=["schema"] * len(pos),
@@ -104,7 +105,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     scores: dict[str, np.ndarray] = {}
     for number, stage in enumerate(prep.spec.stages, start=1):
         say(f"stage {number}/{len(prep.spec.stages)} {stage.name!r} ({stage.method}) "
-            f"on {len(active)} rows")
+            f"on {counted(len(active), 'row')}")
         t0 = time.perf_counter()
         sub = prep.space.subset(active)
         stage_labels = labels[active]
@@ -127,7 +128,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
                                      lists.pair() if METHODS[stage.method].judged_by_lists
                                      else None))
         active = active[sel.kept]
-        say(f"  removed {len(sel.removed)} rows in {outcomes[-1].seconds:.2f} s")
+        say(f"  removed {counted(len(sel.removed), 'row')} in {outcomes[-1].seconds:.2f} s")
     kept_positions = prep.valid_positions[active]
     table = audit.frame()
     kept, removed = _split(prep, kept_positions, scores)

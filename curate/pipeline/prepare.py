@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import polars as pl
 
-from curate.errors import InputError, UsageError, first_ids
+from curate.errors import InputError, UsageError, first_ids, quoted
 from curate.io import schema as schema_mod
 from curate.io.read import read_input, row_ids
 from curate.io.review import protected_ids
@@ -32,7 +32,7 @@ def _check_classes(spec: Spec, labels: np.ndarray) -> None:
     distinct = encode_labels(labels)[0]
     if needs_two and len(distinct) < 2:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} has one class "
-                         f"only ({distinct.tolist()[0]!r}); stage {needs_two[0].name!r} compares classes",
+                         f"only ({quoted(distinct[0])}); stage {needs_two[0].name!r} compares classes",
                          hint="give a table with two or more classes, or drop the editing and "
                               "condensing stages")
 

@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 
 from curate.cluster.stage import run_on_cluster
-from curate.errors import SafetyLimitError, UsageError, first_ids
+from curate.errors import SafetyLimitError, UsageError, counted, first_ids, quoted
 from curate.methods import METHODS
 from curate.methods.base import Selection
 from curate.neighbours.calls import recording, summarise_calls
@@ -43,9 +43,10 @@ def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarr
             wanted = [str(c) for c in stage.classes]
             unknown = sorted(set(wanted) - set(text.tolist()))
             if unknown:
-                raise UsageError(f"stage {stage.name!r}: classes {unknown} do not occur in its "
-                                 "input", hint="use labels that occur: "
-                                               f"{', '.join(sorted(set(text.tolist()))[:10])}")
+                raise UsageError(f"stage {stage.name!r}: classes {', '.join(map(quoted, unknown))} "
+                                 "do not occur in its input",
+                                 hint="use labels that occur: "
+                                      f"{', '.join(sorted(set(text.tolist()))[:10])}")
             chosen = np.isin(text, wanted)
         mask = chosen[codes]
     mask[protected] = False
@@ -63,7 +64,8 @@ def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> 
     small = [str(v) for v in values if sizes[v] <= k]
     if small and METHODS[stage.method].compares_classes:
         raise UsageError(f"stage {stage.name!r}: k = {k} is not below the size of class "
-                         f"{small[0]!r} ({sizes[small[0]]} rows), so its rows cannot outvote "
+                         f"{small[0]!r} ({counted(int(sizes[small[0]]), 'row')}), so its rows "
+                         "cannot outvote "
                          "their neighbours",
                          hint=f"lower k below {sizes[small[0]]}, or keep that class out of reach "
                               "with classes = \"all-but-smallest\" or a list of classes")
@@ -82,7 +84,7 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
             rows = [ids[i] for i in removed_local if str(labels[i]) == value]
             return SafetyLimitError(
                 f"stage {stage.name!r} ({stage.method}) would remove {leaving[value]} of "
-                f"{total} rows of class {value!r} ({share:.0%}), over its limit "
+                f"{counted(int(total), 'row')} of class {quoted(value)} ({share:.0%}), over its limit "
                 f"max_removed_share = {stage.max_removed_share}; {first_ids(rows)}",
                 hint="review why (lower k, classes = \"all-but-smallest\"), or raise "
                      "max_removed_share for this stage if that share is expected "

@@ -46,7 +46,7 @@ from curate.space.points import Space
 if TYPE_CHECKING:
     from curate.pipeline.records import RunResult
 
-__all__ = ["FORMAT", "RunState", "STATE_DIR", "fit_descriptor", "read_state",
+__all__ = ["FORMAT", "RunState", "STATE_DIR", "fit_descriptor", "read_state", "state_size",
            "space_fingerprint", "stage_settings", "write_state"]
 
 STATE_DIR = "update"
@@ -121,10 +121,18 @@ def _stage_metric(space: Space, rows: np.ndarray, valid_positions: np.ndarray) -
                                        else "euclidean")
 
 
-def write_state(result: RunResult, folder: Path) -> None:
-    """Write ``update/`` (state, row order, neighbour lists) for ``result`` into ``folder``."""
+def state_size(result: RunResult) -> int:
+    """About how many bytes :func:`write_state` writes (for the message of a full disk)."""
+    lists = sum(o.rows.nbytes * (1 + 2 * o.lists[1].shape[1])
+                for o in result.outcomes if o.lists is not None)
+    return int(lists + 16 * result.prepared.frame.height + 100_000)
+
+
+def write_state(result: RunResult, where: Path) -> None:
+    """Write the state folder (state, row order, neighbour lists) of ``result`` as ``where``
+    (in a run folder: ``update/``)."""
     prep = result.prepared
-    where = Path(folder) / STATE_DIR
+    where = Path(where)
     where.mkdir()
     arrays: dict[str, np.ndarray] = {}
     stages = []

@@ -6,6 +6,7 @@ import functools
 import platform
 from collections import Counter
 from importlib import metadata
+from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -103,7 +104,8 @@ def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept: pl.DataFra
         "stages": [_stage_record(prep, out) for out in outcomes],
         "input": str(spec.input.path),
         "input_sha256": file_sha256(spec.input.path),
-        "pipeline": spec.source,
+        # absolute, as "input" is: `curate review` names paths relative to the pipeline's folder
+        "pipeline": str(Path(spec.source).resolve()) if Path(spec.source).is_file() else spec.source,
         "pipeline_sha256": spec.sha256,
         "seed": spec.run.seed,
         "label": label,

@@ -88,13 +88,18 @@ def test_run_folder_without_update_state_exit_2(make_pipeline, two_blobs, capsys
     assert code == 2 and "rerun" in err and "hint:" in err
 
 
-def test_refit_and_an_existing_out_folder(make_pipeline, two_blobs, capsys):
-    """--refit is a full run (said in the summary); an existing --out needs --overwrite."""
+def test_refit_and_where_the_output_may_go(make_pipeline, two_blobs, capsys):
+    """--refit is a full run (said in the summary); the output may not be the run folder the
+    update reads; an existing run folder elsewhere needs --overwrite."""
     path = _first_run(make_pipeline, two_blobs, capsys)
     NEW.write_csv(path.parent / "new.csv")
-    args = ["update", str(path), "--run", str(path.parent / "run"), "--new",
-            str(path.parent / "new.csv"), "--out", str(path.parent / "run"), "--refit"]
-    assert main(args) == 2 and "already exists" in capsys.readouterr().err
-    assert main([*args, "--overwrite", "--json"]) == 0
+    base = ["update", str(path), "--run", str(path.parent / "run"), "--new",
+            str(path.parent / "new.csv"), "--refit"]
+    assert main([*base, "--out", str(path.parent / "run")]) == 2
+    assert "is the run folder" in capsys.readouterr().err
+    assert main([*base, "--out", str(path.parent / "run2"), "--quiet"]) == 0
+    assert main([*base, "--out", str(path.parent / "run2")]) == 2
+    assert "already exists" in capsys.readouterr().err
+    assert main([*base, "--out", str(path.parent / "run2"), "--overwrite", "--json"]) == 0
     facts = json.loads(capsys.readouterr().out)["update"]
     assert facts["refit"] is True and facts["stages"][0]["mode"] == "full run (refit)"

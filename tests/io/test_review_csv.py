@@ -50,14 +50,22 @@ def test_review_csv_holds_every_removed_row_with_its_evidence(enn_run: Path,
 
 def test_review_never_overwrites_unless_told(enn_run: Path, tmp_path: Path,
                                              capsys: pytest.CaptureFixture[str]) -> None:
-    """An existing file stays as it was (exit 2), unless --overwrite."""
+    """An existing review file stays as it was (exit 2), unless --overwrite; a file curate did
+    not write is never replaced."""
     out = tmp_path / "review.csv"
-    out.write_text("a reviewer's work\n")
+    # A reviewer's copy saved by a spreadsheet that writes semicolons (common practice, no source).
+    out.write_text("row_id;decision;stage\n3;keep;mislabels\n")
     assert main(["review", "--run", str(enn_run), "--out", str(out)]) == 2
     assert "already exists" in capsys.readouterr().err
-    assert out.read_text() == "a reviewer's work\n"
+    assert out.read_text() == "row_id;decision;stage\n3;keep;mislabels\n"
     assert main(["review", "--run", str(enn_run), "--out", str(out), "--overwrite"]) == 0
     assert out.read_text().startswith("row_id,decision,")
+    notes = tmp_path / "notes.csv"
+    notes.write_text("a reviewer's own notes\n")
+    assert main(["review", "--run", str(enn_run), "--out", str(notes), "--overwrite"]) == 2
+    err = capsys.readouterr().err
+    assert "may not replace" in err and "a reviewer's own notes" in err
+    assert notes.read_text() == "a reviewer's own notes\n"
 
 
 def test_review_of_a_folder_that_is_not_a_run(tmp_path: Path,

@@ -13,9 +13,13 @@ import pytest
 from threadpoolctl import threadpool_limits
 
 
-@pytest.fixture(autouse=True)
+@pytest.fixture
 def one_thread() -> Iterator[None]:
     """Run the reference libraries on one thread: on a shared 2-core machine their
-    thread pools oversubscribe and run many times slower (measured: 13 times)."""
+    thread pools oversubscribe and run many times slower (measured: 13 times).
+
+    The editing tests use it (``pytestmark``); it is not autouse because entering the
+    limit costs about 11 ms, which hundreds of other tests here do not need to pay.
+    """
     with threadpool_limits(1):
         yield

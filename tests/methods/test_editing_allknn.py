@@ -28,6 +28,8 @@ from imblearn.under_sampling import AllKNN, EditedNearestNeighbours
 
 from curate.methods.editing import all_knn
 
+pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
+
 KINDS = {"majority": "mode", "unanimous": "all"}
 
 

@@ -24,6 +24,8 @@ from imblearn.under_sampling import EditedNearestNeighbours
 
 from curate.methods.editing import enn
 
+pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
+
 KINDS = {"majority": "mode", "unanimous": "all"}
 
 

@@ -35,6 +35,8 @@ from sklearn.neighbors import KNeighborsClassifier, NearestNeighbors
 from curate.errors import UsageError
 from curate.methods.cleaning import ncr
 
+pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
+
 
 class LeaveSelfOut(KNeighborsClassifier):
     """scikit-learn's k-NN classifier; a training row asked about is voted on without itself."""

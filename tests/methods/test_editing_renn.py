@@ -33,6 +33,8 @@ from imblearn.under_sampling import EditedNearestNeighbours, RepeatedEditedNeare
 
 from curate.methods.editing import renn
 
+pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
+
 KINDS = {"majority": "mode", "unanimous": "all"}
 
 

@@ -22,6 +22,8 @@ from sklearn.neighbors import NearestNeighbors
 
 from curate.methods.cleaning import tomek_links
 
+pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
+
 
 def links_by_definition(X: np.ndarray, y: np.ndarray) -> set[int]:
     """Members of mutual-nearest-neighbour pairs with different labels (scikit-learn)."""
