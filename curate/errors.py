@@ -24,6 +24,7 @@ helpers every message uses: :func:`quoted` prints a value as the user wrote it
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 __all__ = [
     "ClusterError",
@@ -39,9 +40,11 @@ __all__ = [
     "SchemaFailure",
     "Terminated",
     "UsageError",
+    "canonical",
     "counted",
     "first_ids",
     "quoted",
+    "suggest",
 ]
 
 
@@ -91,8 +94,12 @@ class SchemaFailure(InputError):
         self.failures = failures
 
 
-class SafetyLimitError(CurateError):
-    """A safety limit stopped the run before anything was written (exit code 4)."""
+class SafetyLimitError(CurateError, ValueError):
+    """A safety limit stopped the run before anything was written (exit code 4).
+
+    Also a ``ValueError``, as scikit-learn raises for data it cannot accept, so
+    that code around :class:`curate.Sampler` may catch it as such.
+    """
 
     exit_code = 4
 
@@ -167,3 +174,39 @@ def counted(count: int, word: str, plural: str | None = None) -> str:
     ('1 row', '3 rows', '1 class', '0 stages')
     """
     return f"{count} {word if count == 1 else (plural or word + 's')}"
+
+
+def canonical(value: Any, allowed: tuple[Any, ...]) -> Any:
+    """``value`` as spelled in ``allowed``, letter case ignored for text; None when not allowed.
+
+    Allowed values are fixed lists of lowercase words, so "HVDM" can only mean "hvdm".
+
+    Examples
+    --------
+    >>> canonical("HVDM", ("heom", "hvdm")), canonical("hvd", ("heom", "hvdm"))
+    ('hvdm', None)
+    """
+    if value in allowed:
+        return value
+    if isinstance(value, str):
+        folded = [a for a in allowed if isinstance(a, str) and a.casefold() == value.casefold()]
+        if len(folded) == 1:
+            return folded[0]
+    return None
+
+
+def suggest(value: Any, known: tuple[Any, ...] | list[Any]) -> str:
+    """``"; did you mean 'x'?"`` for the known word closest to a misspelled one, else "".
+
+    Examples
+    --------
+    >>> suggest("mehtod", ["name", "method", "classes"])
+    "; did you mean 'method'?"
+    >>> suggest("zzz", ["name", "method"])
+    ''
+    """
+    import difflib  # only when a word is misspelled: `curate --help` stays light
+
+    words = [str(k) for k in known]
+    close = difflib.get_close_matches(str(value).casefold(), words, n=1, cutoff=0.6)
+    return f"; did you mean {close[0]!r}?" if close else ""

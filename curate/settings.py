@@ -21,11 +21,13 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Protocol
 
-from curate.errors import PipelineFileError, UsageError
+from curate.errors import PipelineFileError, UsageError, canonical, suggest
 
 __all__ = [
-    "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "K_GRID", "LEARNED_WEIGHTS",
-    "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "ClusterSettings", "ColumnRule",
+    "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "FAULT_KINDS", "K_GRID",
+    "LEARNED_WEIGHTS", "MIN_MEMORY_MB", "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES",
+    "STAGE_KEYS",
+    "ClusterSettings", "ColumnRule",
     "Declared", "EngineSettings", "InputSettings", "OutputSettings", "Param", "RunSettings",
     "SpaceSettings", "Spec", "StageSettings", "canonical", "check_params", "local_workers",
     "suggest",
@@ -33,7 +35,7 @@ __all__ = [
 
 BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
 DISTANCES = ("euclidean", "manhattan", "heom", "hvdm")
-SCALES = ("range", "zscore", "robust")
+SCALES = ("range", "zscore", "robust", "none")
 MISSING_POLICIES = ("stop", "impute", "far")
 LEARNED_WEIGHTS = ("mutual-information",)
 COLUMN_TYPES = ("float", "int", "category", "bool", "string")
@@ -41,42 +43,18 @@ NOMINAL_KINDS = ("category", "string", "bool")
 ON_INVALID = ("stop", "quarantine")
 CLASS_CHOICES = ("all", "all-but-smallest")
 K_GRID = tuple(range(1, 26, 2))  # k values `curate evaluate` scores by default
-
-
-def canonical(value: Any, allowed: tuple[Any, ...]) -> Any:
-    """``value`` as spelled in ``allowed``, letter case ignored for text; None when not allowed.
-
-    Allowed values are fixed lists of lowercase words, so "HVDM" can only mean "hvdm".
-
-    Examples
-    --------
-    >>> canonical("HVDM", ("heom", "hvdm")), canonical("hvd", ("heom", "hvdm"))
-    ('hvdm', None)
-    """
-    if value in allowed:
-        return value
-    if isinstance(value, str):
-        folded = [a for a in allowed if isinstance(a, str) and a.casefold() == value.casefold()]
-        if len(folded) == 1:
-            return folded[0]
-    return None
-
-
-def suggest(value: Any, known: tuple[Any, ...] | list[Any]) -> str:
-    """``"; did you mean 'x'?"`` for the known word closest to a misspelled one, else "".
-
-    Examples
-    --------
-    >>> suggest("mehtod", ["name", "method", "classes"])
-    "; did you mean 'method'?"
-    >>> suggest("zzz", ["name", "method"])
-    ''
-    """
-    import difflib  # only when a word is misspelled: `curate --help` stays light
-
-    words = [str(k) for k in known]
-    close = difflib.get_close_matches(str(value).casefold(), words, n=1, cutoff=0.6)
-    return f"; did you mean {close[0]!r}?" if close else ""
+# Keys every [[stages]] entry takes besides its method's own parameters.
+STAGE_KEYS = ("name", "method", "max_removed_share", "classes", "seed")
+# Kinds of known fault a ground-truth table (`curate evaluate --truth`) may name, and which
+# stages are meant to catch each (a method declares them in ``MethodInfo.catches``).
+FAULT_KINDS = {
+    "re-sent": "a copy of another row, same features and label",
+    "near-copy": "a copy of another row with slightly changed values, same label",
+    "conflict": "a copy of another row's features with another label",
+    "label-flip": "a wrong label",
+    "schema": "a value that breaks the table's schema (quarantined before any stage)",
+}
+MIN_MEMORY_MB = 16  # the smallest [run] memory_mb / --memory-mb accepted
 
 
 @dataclass(frozen=True)
@@ -155,8 +133,14 @@ class Declared(Protocol):
     def params(self) -> tuple[Param, ...]: ...
 
 
-def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -> dict[str, Any]:
+def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "",
+                 others: str = "the keys every stage takes are: " + ", ".join(STAGE_KEYS)
+                 ) -> dict[str, Any]:
     """Check ``given`` against the method's table and fill defaults.
+
+    ``others`` names what the caller takes besides the method's own parameters
+    (a pipeline file's stage keys, or the Sampler's arguments), for the hint
+    when a name is unknown.
 
     Examples
     --------
@@ -168,6 +152,11 @@ def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -
     ...
     curate.errors.UsageError: enn: parameter 'k' got 0, expected an integer >= 1
       hint: set k to an integer >= 1
+    >>> try:
+    ...     check_params(METHODS["fcnn"], {"k": 1})
+    ... except UsageError as err:
+    ...     print(err.hint.split("; ")[0])
+    fcnn has no parameters of its own
     """
     prefix = f"{where}: " if where else f"{info.key}: "
     declared = {p.name: p for p in info.params}
@@ -175,10 +164,12 @@ def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -
     for name, value in given.items():
         param = declared.get(name)
         if param is None:
+            own = (f"the parameters of {info.key} are: {', '.join(declared)}" if declared
+                   else f"{info.key} has no parameters of its own")
             raise UsageError(
                 f"{prefix}unknown parameter {name!r} for method {info.key!r}"
                 + suggest(name, list(declared)),
-                hint=f"the parameters of {info.key} are: {', '.join(declared)}",
+                hint=f"{own}; {others}",
             )
         if param.choices is not None:
             value = canonical(value, param.choices) or value
@@ -218,8 +209,9 @@ class SpaceSettings:
 
     ``weights`` is a mapping column -> weight (columns left out weigh 1) or
     ``"mutual-information"``: weights learned from the labels. ``scale`` applies
-    to ``"euclidean"`` and ``"manhattan"`` only; HEOM and HVDM fix their own
-    numeric scaling, so with them any scale but the default is rejected.
+    to ``"euclidean"`` and ``"manhattan"`` only (``"none"`` measures the values
+    as they are, for pre-scaled features and embeddings); HEOM and HVDM fix
+    their own numeric scaling, so with them any scale but the default is rejected.
 
     Examples
     --------
@@ -292,7 +284,13 @@ class InputSettings:
 
 @dataclass(frozen=True)
 class StageSettings:
-    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits."""
+    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits.
+
+    The safety limit: no class may lose more than ``max_removed_share`` of
+    its rows (1.0: no share limit) and, with ``keep_every_class``, no class
+    may lose all of them. A pipeline file that sets no ``max_removed_share``
+    gets the method's default (see ``MethodInfo.default_limit``).
+    """
 
     name: str
     method: str
@@ -300,6 +298,7 @@ class StageSettings:
     max_removed_share: float = 0.5
     classes: str | tuple[Any, ...] = "all"
     seed: int | None = None
+    keep_every_class: bool = False
 
 
 @dataclass(frozen=True)

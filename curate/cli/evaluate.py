@@ -9,6 +9,7 @@ from contextlib import nullcontext
 from pathlib import Path
 from typing import Any
 
+from curate.cli.pipeline import add_trust_option
 from curate.errors import UsageError
 from curate.settings import K_GRID
 
@@ -82,7 +83,7 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
                          hint="give the table of known faulty rows (CSV or Parquet, with the "
                               "input's id column and 'fault'); a relative path starts where "
                               "curate runs, not at the pipeline file")
-    spec = load_spec(args.pipeline)
+    spec = load_spec(args.pipeline, trust_code=args.trust_code)
     reads = spec_inputs(spec) + ([("the fault table", Path(args.truth))] if args.truth else [])
     out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
     with Reporter(args.quiet) as say, out or nullcontext() as claim:
@@ -113,6 +114,7 @@ def add_commands(sub: Any) -> None:
     p = sub.add_parser("evaluate", help="measure, without leakage, what curation does to "
                        "classification (cross-validation; stages run on training folds only)")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.add_argument("--folds", type=int, default=10, help="stratified folds (default 10)")
     p.add_argument("--repeats", type=int, default=1, help="repeat with seeds seed, seed+1, ...")
     p.add_argument("--k", help="k values of the kNN classifier, such as 1,3,5, or 'grid' "

@@ -9,25 +9,27 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import time
 from dataclasses import replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from curate.errors import UsageError, counted
-from curate.settings import BACKENDS, canonical, suggest
+from curate.settings import BACKENDS, MIN_MEMORY_MB, canonical, suggest
 
 if TYPE_CHECKING:
     from curate.settings import Spec
 
-__all__ = ["add_commands", "load_with_options"]
+__all__ = ["add_commands", "add_trust_option", "load_with_options"]
 
 
 def _check_options(args: argparse.Namespace) -> None:
     """Refuse impossible engine options before the pipeline file or the input is read."""
     memory = getattr(args, "memory_mb", None)
-    if memory is not None and memory < 16:
-        raise UsageError(f"--memory-mb {memory} is too little memory for neighbour queries",
-                         hint="give at least 16 (megabytes); the default is 1024")
+    if memory is not None and memory < MIN_MEMORY_MB:
+        raise UsageError(f"--memory-mb {memory} is below the minimum of {MIN_MEMORY_MB} megabytes",
+                         hint=f"give --memory-mb {MIN_MEMORY_MB} or more (default: [run] "
+                              "memory_mb, else 1024)")
     backend = getattr(args, "backend", None)
     if backend is not None and canonical(backend, BACKENDS) is None:
         raise UsageError(f"--backend {backend} is not a neighbour engine" + suggest(backend,
@@ -44,7 +46,7 @@ def load_with_options(args: argparse.Namespace) -> Spec:
     from curate.spec import load_spec
 
     _check_options(args)
-    spec = load_spec(args.pipeline)
+    spec = load_spec(args.pipeline, trust_code=getattr(args, "trust_code", None) or ())
     engine = spec.run.engine
     if getattr(args, "memory_mb", None) is not None:
         engine = replace(engine, memory_mb=args.memory_mb)
@@ -60,6 +62,7 @@ def load_with_options(args: argparse.Namespace) -> Spec:
 
 def cmd_run(args: argparse.Namespace) -> int:
     """Handler of ``curate run``."""
+    started = time.perf_counter()
     from curate.api import run
     from curate.cli.progress import Reporter
     from curate.cli.render import summary_text
@@ -68,11 +71,11 @@ def cmd_run(args: argparse.Namespace) -> int:
     out = Path(args.out) if args.out else spec.output.folder
     with Reporter(args.quiet) as say:
         result = run(spec, out=out, overwrite=args.overwrite or spec.output.overwrite,
-                     progress=say)
+                     progress=say, started=started)
     if args.json:
         print(json.dumps(result.summary, indent=2, default=str))
     elif not args.quiet:
-        print(summary_text(result.summary, out), file=sys.stderr)
+        print(summary_text(result.summary, out, time.perf_counter() - started), file=sys.stderr)
     return 0
 
 
@@ -108,15 +111,25 @@ def cmd_distances(args: argparse.Namespace) -> int:
     return 0
 
 
+def add_trust_option(parser: argparse.ArgumentParser) -> None:
+    """``--trust-code``, on every command that reads a pipeline file."""
+    parser.add_argument("--trust-code", action="append", default=[], metavar="DIR_OR_MODULE",
+                        help="a folder or an installed module the pipeline file's schema module "
+                             "may load from, besides the pipeline file's folder (repeatable); "
+                             "a schema module is code and runs with your rights")
+
+
 def add_commands(sub: Any) -> None:
     """Add ``run``, ``check`` and ``distances`` to the CLI's subparsers."""
     p = sub.add_parser("run", help="run a pipeline file and write a run folder")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.add_argument("--out", help="run folder (default: [output] folder)")
     p.add_argument("--overwrite", action="store_true", help="replace a run folder curate wrote")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
-    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
+    p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, output batches and the "
+                   "report's sample, in MB (at least 16; see the README for what it covers)")
     p.add_argument("--backend", help="neighbour engine: " + ", ".join(BACKENDS))
     p.add_argument("--recall-target", type=float, metavar="SHARE",
                    help="recall the approximate engine probes for (default 0.99)")
@@ -125,9 +138,11 @@ def add_commands(sub: Any) -> None:
     p.set_defaults(func=cmd_run)
     p = sub.add_parser("check", help="check the pipeline file and the input, select nothing")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.set_defaults(func=cmd_check)
     p = sub.add_parser("distances", help="nearest-neighbour distances, to choose a near-copy radius")
     p.add_argument("pipeline")
+    add_trust_option(p)
     p.add_argument("--radius", type=float, nargs="+", action="extend", metavar="R",
                    help="candidate radii to try: --radius 0.05 0.1 (or the option repeated)")
     p.add_argument("--json", action="store_true")

@@ -23,14 +23,19 @@ __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "m
            "review_text", "summary_text"]
 
 
-def summary_text(summary: dict[str, Any], out: Path) -> str:
-    """A run's summary in a few lines: rows in, kept, removed, and each stage."""
+def summary_text(summary: dict[str, Any], out: Path, seconds: float | None = None) -> str:
+    """A run's summary in a few lines: rows in, kept, removed, each stage, and the times.
+
+    ``seconds`` is the whole command's time, when the caller measured it.
+    """
     lines = [f"{counted(summary['rows_in'], 'row')} in, {summary['rows_kept']} kept, "
              f"{summary['rows_removed']} removed ({summary['rows_quarantined']} quarantined)"]
     for st in summary["stages"]:
         reasons = ", ".join(f"{k} {v}" for k, v in st["by_reason"].items()) or "nothing"
         lines.append(f"  {st['name']} ({st['method']}): {st['rows_in']} in, removed {reasons}, "
                      f"{st['seconds']:.2f} s")
+    whole = f"; whole command {seconds:.2f} s" if seconds is not None else ""
+    lines.append(f"stages {summary['seconds']:.2f} s{whole}")
     lines.append(f"run folder: {out}")
     return "\n".join(lines)
 
@@ -112,6 +117,9 @@ def methods_table(methods: Mapping[str, MethodInfo]) -> list[dict[str, Any]]:
     """Every method with its parameters, as JSON-ready data (`curate methods --json`)."""
     return [{"key": m.key, "name": m.name, "family": m.family, "reference": m.reference,
              "purpose": m.purpose, "reasons": m.reasons,
+             "default_max_removed_share": m.default_limit()[0],
+             "default_keep_every_class": m.default_limit()[1], "default_limit": m.limit_text(),
+             "catches": list(m.catches),
              "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
                          "doc": p.doc} for p in m.params]} for m in methods.values()]
 
@@ -122,6 +130,9 @@ def methods_text(methods: Mapping[str, MethodInfo]) -> str:
     for info in methods.values():
         lines.append(f"{info.key:<24} {info.name} ({info.family}; {info.reference})")
         lines.append(f"{'':<24} {info.purpose}")
+        lines.append(f"{'':<24} default safety limit: {info.limit_text()}")
+        if info.catches:
+            lines.append(f"{'':<24} meant to catch: {', '.join(info.catches)}")
         for p in info.params:
             lines.append(f"{'':<26}{p.name} = {_default(p)}: {p.doc} ({p.allowed()})")
         lines.append("")
@@ -187,10 +198,16 @@ def _fixed(value: Any, width: int, digits: int = 3, sign: bool = False) -> str:
 
 
 def _detection_text(title: str, block: Mapping[str, Any]) -> list[str]:
-    lines = [title, f"  {'stage':<28}{'removed':>9}{'found':>9}{'precision':>11}{'recall':>9}"]
-    for st in [*block["stages"], {"stage": "all stages", **block["all_stages"]}]:
-        lines.append(f"  {str(st['stage'])[:27]:<28}{st['removed']:>9,}{st['found']:>9,}"
-                     f"{_fixed(st['precision'], 11)}{_fixed(st['recall'], 9)}")
+    lines = [title, f"  {'stage':<24}{'meant to catch':<22}{'removed':>8}{'faulty':>8}"
+                    f"{'found':>7}{'precision':>10}{'recall':>8}"]
+    every = {"stage": "all stages", "meant_for": ["any fault"], **block["all_stages"]}
+    for st in [*block["stages"], every]:
+        meant = ", ".join(st.get("meant_for", [])) or "nothing"
+        lines.append(f"  {str(st['stage'])[:23]:<24}{meant[:21]:<22}{st['removed']:>8,}"
+                     f"{st['faulty']:>8,}{st['found']:>7,}{_fixed(st['precision'], 10)}"
+                     f"{_fixed(st['recall'], 8)}")
+    lines.append("  recall = found / faulty; faulty: the training rows (over all folds) with a "
+                 "fault the stage is meant to catch that reached it; all stages: every fault")
     return lines
 
 
@@ -221,7 +238,7 @@ def evaluation_text(e: Mapping[str, Any]) -> str:
                      f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['macro_f1'], 9)}"
                      f"{_fixed(r['kept_share'], 7, 2)}{_fixed(r.get('accuracy_difference'), 8, 3, True)}"
                      f"{_fixed(r.get('p_value'), 8)}")
-    lines += [f"warning: {w}" for w in over_limit_notes(e)]
+    lines += [f"warning: {w}" for w in [*e.get("warnings", []), *over_limit_notes(e)]]
     if e["best_k"]:
         lines.append(f"best k: {e['best_k'].get('uncurated')} without curation, "
                      f"{e['best_k'].get('curated')} with curation")

@@ -48,13 +48,15 @@ def cmd_diff(args: argparse.Namespace) -> int:
     from curate.cli.render import diff_text
     from curate.io.diff import diff_runs
     from curate.io.review import claim_csv
+    from curate.io.spreadsheet import spreadsheet_safe
 
     out = claim_csv(Path(args.out), args.overwrite, [Path(args.run_a), Path(args.run_b)],
                     ("row_id", "change")) if args.out else nullcontext()
     with out as claim:
         diff = diff_runs(args.run_a, args.run_b, force=args.force)
         if claim is not None:
-            claim.write_file(diff.changes.write_csv, int(diff.changes.estimated_size()))
+            claim.write_file(spreadsheet_safe(diff.changes).write_csv,
+                             int(diff.changes.estimated_size()))
     if diff.warning:
         print(f"warning: {diff.warning}", file=sys.stderr)
     print(json.dumps(diff.to_json(), indent=2, default=str) if args.json else diff_text(diff))

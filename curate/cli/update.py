@@ -12,6 +12,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from curate.cli.pipeline import add_trust_option
 from curate.settings import BACKENDS
 
 __all__ = ["add_commands"]
@@ -56,4 +57,5 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
     p.add_argument("--backend", help="neighbour engine: " + ", ".join(BACKENDS))
+    add_trust_option(p)
     p.set_defaults(func=cmd_update)

@@ -12,7 +12,7 @@ import numpy as np
 
 from curate.errors import counted
 from curate.methods._neighbourhood import interest_class, tomek_links
-from curate.methods._votes import add_vote_records, misclassified, vote_counts
+from curate.methods._votes import add_vote_records, misclassified, tie_notes, vote_counts
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, require_neighbours
 from curate.settings import Param
@@ -25,7 +25,7 @@ TOMEK_LINKS = MethodInfo(
     key="tomek-links", name="Tomek links", family="editing", reference="Tomek 1976",
     purpose="clean class borders: remove pairs of rows from different classes that are "
             "each other's nearest neighbour",
-    compares_classes=True, judged_by_lists=True,
+    compares_classes=True, judged_by_lists=True, catches=("label-flip",),
     func=tomek_links,
     params=(Param("remove", str, "both", "both: every member of a link that the stage may "
                   "remove; larger: only the member from the larger class",
@@ -99,6 +99,8 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     a2[list(crowd)] = True
     out = SelectionBuilder(space.n)
     label = repr(str(names[target]))
+    outvoted = np.flatnonzero(a1)
+    ties = dict(zip(outvoted.tolist(), tie_notes(space, outvoted, dist[outvoted]), strict=True))
     for i in np.flatnonzero(a1 | (a2 & removable)):
         near = sorted(crowd.get(int(i), []), key=lambda pair: (pair[1], pair[0]))
         if a1[i]:
@@ -106,7 +108,7 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
                     f"{len(near)} outvoted {label} {'row' if len(near) == 1 else 'rows'}"
                     ) if near else ""
             add_vote_records(out, np.array([i]), np.array([i]), codes, names, nbr, dist,
-                             suffix=also)
+                             suffix=ties[int(i)] + also)
             continue
         mine = int(counts[near[0][0], target])
         out.add(int(i), "crowds-interest",
@@ -123,7 +125,7 @@ NCR = MethodInfo(
     reference="Laurikkala 2001",
     purpose="sharpen a small class of interest: remove other-class rows that ENN outvotes "
             "or that crowd its misclassified rows",
-    compares_classes=True, judged_by_lists=True,
+    compares_classes=True, judged_by_lists=True, catches=("label-flip",),
     func=ncr,
     params=(
         Param("k", int, 3, "neighbours that vote and that are cleaned", low=1),

@@ -129,7 +129,7 @@ EXACT = MethodInfo(
     key="exact-duplicates", name="exact duplicates", family="duplicates",
     reference="common practice",
     purpose="drop re-sent rows: equal feature values and equal label; keeps the first",
-    func=exact_duplicates, params=(), uses_neighbours=False,
+    func=exact_duplicates, params=(), uses_neighbours=False, catches=("re-sent",),
     reasons={"exact-copy": "same feature values and label as an earlier, kept row"},
 )
 
@@ -138,7 +138,7 @@ CONFLICTING = MethodInfo(
     reference="common practice",
     purpose="rows with equal feature values but different labels: drop, resolve by majority, "
             "or report",
-    func=conflicting_duplicates, uses_neighbours=False,
+    func=conflicting_duplicates, uses_neighbours=False, catches=("conflict",),
     params=(Param("policy", str, "drop-all", "what to do with a conflicting group",
                   choices=("drop-all", "keep-majority", "report")),),
     reasons={
@@ -296,7 +296,7 @@ NEAR = MethodInfo(
     reference="common practice",
     purpose="drop same-label rows within a radius of a kept row (jittered re-sends); "
             "report or drop rows within the radius of another label",
-    func=near_duplicates,
+    func=near_duplicates, catches=("re-sent", "near-copy"),
     params=(
         Param("radius", float, None, "distance in the normalised space within which rows of "
               "the same label are copies", check=lambda v: v > 0,

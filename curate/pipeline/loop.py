@@ -131,11 +131,10 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         say(f"  removed {counted(len(sel.removed), 'row')} in {outcomes[-1].seconds:.2f} s")
     kept_positions = prep.valid_positions[active]
     table = audit.frame()
-    kept, removed = _split(prep, kept_positions, scores)
-    _check_outputs(prep, kept, removed, table)
-    summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
+    _check_outputs(prep, kept_positions, table)
+    summary = build_summary(prep, outcomes, kept_positions, table, time.perf_counter() - started)
     summary["engine"].update(_engine_facts(prep, outcomes))
-    return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
+    return RunResult(table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None, outcomes)
 
 
@@ -163,24 +162,12 @@ def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any
             "recall_sample": 0}
 
 
-def _split(prep: Prepared, kept_positions: np.ndarray,
-           scores: dict[str, np.ndarray]) -> tuple[pl.DataFrame, pl.DataFrame]:
+def _check_outputs(prep: Prepared, kept_positions: np.ndarray, audit: pl.DataFrame) -> None:
+    """The contract, checked before anything is written: kept and audited rows partition the input."""
     mask = np.zeros(prep.frame.height, dtype=bool)
     mask[kept_positions] = True
-    base = prep.frame.with_columns(prep.ids) if prep.spec.input.id != "row_id" else prep.frame
-    if prep.spec.output.scores:
-        base = base.with_columns([pl.Series(name, values) for name, values in scores.items()
-                                  if name not in base.columns])
-    keep = pl.Series(mask)
-    return base.filter(keep), base.filter(~keep)
-
-
-def _check_outputs(prep: Prepared, kept: pl.DataFrame, removed: pl.DataFrame,
-                   audit: pl.DataFrame) -> None:
-    """The contract, checked before anything is written."""
-    k, r = kept["row_id"], removed["row_id"]
-    if kept.height + removed.height != prep.frame.height or pl.concat([k, r]).n_unique() != \
-            prep.frame.height:
-        raise AssertionError("kept and removed rows do not partition the input")
-    if audit.height != removed.height or not audit["row_id"].sort().equals(r.sort()):
+    if int(mask.sum()) != len(kept_positions):
+        raise AssertionError("a row is kept twice")
+    removed = prep.ids.filter(pl.Series(~mask))
+    if audit.height != removed.len() or not audit["row_id"].sort().equals(removed.sort()):
         raise AssertionError("the audit does not have exactly one row per removed row")

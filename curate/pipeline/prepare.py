@@ -9,6 +9,7 @@ from curate.errors import InputError, UsageError, first_ids, quoted
 from curate.io import schema as schema_mod
 from curate.io.read import read_input, row_ids
 from curate.io.review import protected_ids
+from curate.io.suspect import refuse_id_like
 from curate.methods import METHODS
 from curate.pipeline.records import Prepared
 from curate.settings import Spec
@@ -72,6 +73,7 @@ def prepare_frame(spec: Spec, frame: pl.DataFrame, fit: np.ndarray | None = None
     checked = validation.frame
     features = schema_mod.feature_columns(checked, spec.input)
     kinds = schema_mod.feature_kinds(checked, features, spec.input.columns)
+    refuse_id_like(checked, kinds, spec.input)
     labels = _labels_of_valid(checked, spec.input.label)
     _check_classes(spec, labels)
     valid_ids = ids.filter(pl.Series(validation.valid)).to_list()

@@ -27,7 +27,6 @@ from curate.pipeline.loop import (
     _quarantine,
     _record,
     _spared,
-    _split,
 )
 from curate.pipeline.records import Prepared, RunResult, StageOutcome
 from curate.pipeline.stage import safety_breach
@@ -178,9 +177,8 @@ def _assemble(prep: Prepared, audit: AuditLog, copied: list[pl.DataFrame],
               outcomes: list[StageOutcome], spared: AuditLog, seconds: float) -> RunResult:
     kept_positions = prep.valid_positions[active]
     table = _audit(prep, audit, copied, order)
-    kept, removed = _split(prep, kept_positions, scores)
-    _check_outputs(prep, kept, removed, table)
-    summary = build_summary(prep, outcomes, kept, removed, table, seconds)
+    _check_outputs(prep, kept_positions, table)
+    summary = build_summary(prep, outcomes, kept_positions, table, seconds)
     summary["engine"].update(_engine_facts(prep, outcomes))
-    return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
+    return RunResult(table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None, outcomes)

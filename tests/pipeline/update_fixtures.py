@@ -106,7 +106,7 @@ def run_and_update(folder: Path, table: pl.DataFrame, pipe: dict[str, Any], shar
                          new=folder / f"part{i}.csv", out=folder / f"run{i}")
     assert updated is not None
     table.write_csv(folder / "all.csv")
-    spec = _as_spec(pipe | {"input": pipe["input"] | {"path": "all.csv"}}, folder)
+    spec = _as_spec(pipe | {"input": pipe["input"] | {"path": "all.csv"}}, folder, ())
     oracle = execute(prepare_frame(spec, table, np.arange(n) < cuts[0]))
     return Case(folder, pipe, updated, oracle, cuts[0])
 
