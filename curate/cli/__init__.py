@@ -20,7 +20,6 @@ import sys
 import warnings
 from collections.abc import Sequence
 
-from curate.cli import demo, evaluate, lookup, pipeline, review, update
 from curate.errors import CurateError, OutputRecovered
 
 __all__ = ["main"]
@@ -31,6 +30,7 @@ INTERRUPTED, BROKEN_PIPE = 130, 141
 
 def _parser() -> argparse.ArgumentParser:
     # Imported here, not at the top, so that Ctrl-C while they load is caught by main.
+    from curate.cli import demo, evaluate, lookup, pipeline, review, update
 
     parser = argparse.ArgumentParser(prog="curate", description="Clean and shrink a training "
                                      "table, with an audit of every removed row.")
