@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["SharedLists", "keep_lists", "served_lists", "sharing_lists"]
+__all__ = ["SharedLists", "keep_lists", "served_lists", "sharing_lists", "wanted_length"]
 
 
 @dataclass
@@ -34,6 +34,7 @@ class SharedLists:
     matrix: np.ndarray
     dist: np.ndarray | None = None
     nbr: np.ndarray | None = None
+    widen: int = 0
 
     def pair(self) -> tuple[np.ndarray, np.ndarray] | None:
         """``(dist, nbr)`` when lists are held, else None."""
@@ -50,8 +51,13 @@ _SHARED: ContextVar[SharedLists | None] = ContextVar("curate_shared_lists", defa
 
 @contextmanager
 def sharing_lists(matrix: np.ndarray, dist: np.ndarray | None = None,
-                  nbr: np.ndarray | None = None) -> Iterator[SharedLists]:
+                  nbr: np.ndarray | None = None, widen: int = 0) -> Iterator[SharedLists]:
     """Serve (or keep) whole-table neighbour lists of the space whose matrix is ``matrix``.
+
+    Lists also answer a query of some rows among all rows (itself left out), for as many
+    neighbours as they hold. With ``widen``, a whole-table search that is kept lists that
+    many more neighbours than asked: a vote of k also words whether its k-th neighbour was
+    tied with the next one, which then needs no search of its own.
 
     Examples
     --------
@@ -66,7 +72,7 @@ def sharing_lists(matrix: np.ndarray, dist: np.ndarray | None = None,
     ...     kneighbors(s, 1)[1].tolist()
     [[2], [2], [0]]
     """
-    shared = SharedLists(matrix, dist, nbr)
+    shared = SharedLists(matrix, dist, nbr, widen)
     token = _SHARED.set(shared)
     try:
         yield shared
@@ -91,9 +97,26 @@ def served_lists(matrix: np.ndarray, k: int, queries: np.ndarray | None,
     shared = _SHARED.get()
     if shared is None or shared.dist is None or shared.nbr is None or shared.length < k:
         return None
-    if not _whole(shared, matrix, queries, reference, exclude_self):
+    n = matrix.shape[0]
+    if not _whole(shared, matrix, None, reference, exclude_self):
         return None
-    return shared.dist[:, :k].copy(), shared.nbr[:, :k].copy()
+    if queries is None:
+        return shared.dist[:, :k].copy(), shared.nbr[:, :k].copy()
+    rows = np.asarray(queries, dtype=np.int64).reshape(-1)
+    if len(rows) == 0 or rows.min() < 0 or rows.max() >= n:
+        return None  # the engine says what is wrong with such positions
+    return shared.dist[rows, :k], shared.nbr[rows, :k]
+
+
+def wanted_length(matrix: np.ndarray, k: int, queries: np.ndarray | None,
+                  reference: np.ndarray | None, exclude_self: bool) -> int:
+    """How many neighbours to search for: ``k``, or more for a whole-table search that the
+    shared lists keep with ``widen`` (never more than the other rows)."""
+    shared = _SHARED.get()
+    if shared is None or not shared.widen or not _whole(shared, matrix, queries, reference,
+                                                        exclude_self):
+        return k
+    return max(k, min(k + shared.widen, matrix.shape[0] - 1))
 
 
 def keep_lists(matrix: np.ndarray, queries: np.ndarray | None, reference: np.ndarray | None,

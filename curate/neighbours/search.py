@@ -23,7 +23,7 @@ from curate.neighbours._plan import Request, make_request
 from curate.neighbours.backends import TABLE, choose_backend, plan
 from curate.neighbours.calls import EngineCall, note
 from curate.neighbours.executor import current_executor
-from curate.neighbours.lists import keep_lists, served_lists
+from curate.neighbours.lists import keep_lists, served_lists, wanted_length
 
 if TYPE_CHECKING:
     from curate.space.points import Space
@@ -105,9 +105,10 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
     served = served_lists(space.matrix, k, queries, reference, exclude_self)
     if served is not None:
         return served
-    dist, pos = _kneighbors(space, k, queries, reference, exclude_self)
+    wide = wanted_length(space.matrix, k, queries, reference, exclude_self)
+    dist, pos = _kneighbors(space, wide, queries, reference, exclude_self)
     keep_lists(space.matrix, queries, reference, exclude_self, dist, pos)
-    return dist, pos
+    return dist[:, :k], pos[:, :k]
 
 
 def _kneighbors(space: Space, k: int, queries: np.ndarray | None, reference: np.ndarray | None,

@@ -110,7 +110,9 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         sub = prep.space.subset(active)
         stage_labels = labels[active]
         protected = np.flatnonzero(np.isin(active, prep.protected))
-        with sharing_lists(sub.matrix) as lists:
+        # one neighbour more than the vote: the tie notes of its records need no search
+        wider = METHODS[stage.method].judged_by_lists and sub.engine.backend != "approximate"
+        with sharing_lists(sub.matrix, widen=1 if wider else 0) as lists:
             step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
                             [ids_valid[a] for a in active])
             if step.over_limit is not None:

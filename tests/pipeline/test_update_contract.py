@@ -34,16 +34,17 @@ def _run(folder: Path, table: pl.DataFrame, stages: list[dict[str, object]] = EN
 
 
 def test_every_run_keeps_the_update_state(tmp_path: Path) -> None:
-    """state.json, rows.parquet (every row id in input order) and the lists of ENN's rows."""
+    """state.json, rows.parquet (every row id in input order) and the lists of ENN's rows, one
+    neighbour longer than its k = 3 (the vote's tie notes read the next neighbour)."""
     table = open_table("wine", seed=41)
     _run(tmp_path, table)
     state = tmp_path / "run0" / "update"
     facts = json.loads((state / "state.json").read_text())
-    assert facts["stages"][0]["lists"] == 3 and len(facts["space"]["sha256"]) == 64
+    assert facts["stages"][0]["lists"] == 4 and len(facts["space"]["sha256"]) == 64
     rows = pl.read_parquet(state / "rows.parquet")
     assert rows["row_id"].to_list() == table["reading"].head(140).to_list()
     with np.load(state / "lists.npz") as lists:
-        assert lists["s0_nbr"].shape == (140, 3)
+        assert lists["s0_nbr"].shape == (140, 4)
 
 
 def test_new_ids_that_clash_are_an_input_error(tmp_path: Path) -> None:
