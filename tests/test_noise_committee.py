@@ -1,6 +1,7 @@
 """The committee filter (Brodley and Friedl 1999) against scikit-learn and its definition.
 
-* With one model and a majority vote, the filter is the plain out-of-fold
+* With one model, a majority vote and ``min_doubt = 0`` (the filter as
+  published), the filter is the plain out-of-fold
   misclassification filter: the rows where scikit-learn's
   ``cross_val_predict`` (same model, same ``StratifiedKFold`` folds) predicts
   another label.
@@ -45,7 +46,7 @@ def everyone(n: int) -> np.ndarray:
 
 
 @pytest.mark.parametrize(("entry", "reference"), [
-    ("linear", LogisticRegression(max_iter=1000, random_state=4)),
+    ("linear", LogisticRegression(C=100.0, max_iter=1000, random_state=4)),
     ({"model": "knn", "params": {"k": 5}}, KNeighborsClassifier(n_neighbors=5)),
     ("tree", DecisionTreeClassifier(criterion="entropy", min_samples_leaf=2, random_state=4)),
 ])
@@ -56,7 +57,7 @@ def test_one_model_majority_is_the_misclassified_out_of_fold_filter(entry, refer
     split = StratifiedKFold(n_splits=5, shuffle=True, random_state=4)
     predicted = cross_val_predict(reference, X, y, cv=split)
     sel = committee(Space.from_matrix(X), y, removable=everyone(len(y)), seed=4,
-                    models=[entry], folds=5, vote="majority")
+                    models=[entry], folds=5, vote="majority", min_doubt=0.0)
     assert sel.removed.tolist() == np.flatnonzero(predicted != y).tolist()
     assert sel.suggested[sel.removed].tolist() == predicted[predicted != y].tolist()
 
@@ -68,11 +69,24 @@ def test_consensus_removes_a_subset_of_majority(name, seed) -> None:
     X, y = noisy(name, seed=seed)
     space = Space.from_matrix(X)
     models = ["knn", {"model": "trees", "params": {"n_estimators": 25}}, "linear"]
-    majority = committee(space, y, removable=everyone(len(y)), seed=seed, models=models)
+    majority = committee(space, y, removable=everyone(len(y)), seed=seed, models=models,
+                         vote="majority", min_doubt=0.0)
     consensus = committee(space, y, removable=everyone(len(y)), seed=seed, models=models,
-                          vote="consensus")
+                          vote="consensus", min_doubt=0.0)
     assert set(consensus.removed.tolist()) <= set(majority.removed.tolist())
     assert len(majority.removed) > 0
+
+
+def test_min_doubt_only_narrows_the_vote() -> None:
+    """A doubt floor keeps the flagged rows whose doubt reaches it, and only those."""
+    X, y = noisy("wine", seed=4)
+    space = Space.from_matrix(X)
+    plain = committee(space, y, removable=everyone(len(y)), models=["knn", "linear"],
+                      min_doubt=0.0)
+    floor = committee(space, y, removable=everyone(len(y)), models=["knn", "linear"],
+                      min_doubt=0.8)
+    doubt = plain.scores["doubt"]
+    assert floor.removed.tolist() == [i for i in plain.removed.tolist() if doubt[i] >= 0.8]
 
 
 def test_relabel_and_report_keep_every_row_and_never_touch_the_labels() -> None:
@@ -107,9 +121,10 @@ def test_audit_sentence_names_the_probability_and_the_vote() -> None:
     """The plain sentence the issue asks for; the vote counts are scikit-learn's predictions."""
     X, y = noisy("iris", seed=1)
     split = StratifiedKFold(n_splits=5, shuffle=True, random_state=0)
-    predicted = cross_val_predict(KNeighborsClassifier(n_neighbors=10), X, y, cv=split)
-    sel = committee(Space.from_matrix(X), y, removable=everyone(len(y)), models=["knn"])
+    predicted = cross_val_predict(KNeighborsClassifier(n_neighbors=5), X, y, cv=split)
+    sel = committee(Space.from_matrix(X), y, removable=everyone(len(y)), models=["knn"],
+                    min_doubt=0.0)
     first = int(sel.removed[0])
     assert sel.detail[0].startswith(f"out-of-fold probability of its label {str(y[first])!r} ")
     assert sel.detail[0].endswith(f"the committee votes 1 of 1 for {str(predicted[first])!r}")
-    assert len(sel.neighbours[0]) == 10
+    assert len(sel.neighbours[0]) == 5

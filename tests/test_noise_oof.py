@@ -48,7 +48,7 @@ def test_folds_are_scikit_learns_stratified_folds() -> None:
 
 @pytest.mark.parametrize(("entry", "reference"), [
     ({"model": "knn", "params": {"k": 7}}, KNeighborsClassifier(n_neighbors=7)),
-    ("linear", LogisticRegression(C=1.0, max_iter=1000, random_state=3)),
+    ("linear", LogisticRegression(C=100.0, max_iter=1000, random_state=3)),
     ({"model": "trees", "params": {"n_estimators": 20}},
      RandomForestClassifier(n_estimators=20, min_samples_leaf=1, random_state=3)),
     ("sklearn.naive_bayes.GaussianNB", GaussianNB()),
@@ -85,9 +85,9 @@ def test_doubt_is_one_minus_the_mean_probability_of_the_own_label() -> None:
     fold, split = folds_of(y, 5, 1)
     oof = out_of_fold(Space.from_matrix(X), y, 3, parse_models(["knn", "linear"]), fold,
                       seed=1)
-    knn = cross_val_predict(KNeighborsClassifier(n_neighbors=10), X, y, cv=split,
+    knn = cross_val_predict(KNeighborsClassifier(n_neighbors=5), X, y, cv=split,
                             method="predict_proba")
-    lr = cross_val_predict(LogisticRegression(max_iter=1000, random_state=1), X, y,
+    lr = cross_val_predict(LogisticRegression(C=100.0, max_iter=1000, random_state=1), X, y,
                            cv=split, method="predict_proba")
     expected = 1 - (knn + lr)[np.arange(len(y)), y] / 2
     np.testing.assert_allclose(doubt(oof.mean(), y), expected, atol=1e-12)

@@ -72,8 +72,8 @@ def test_the_stage_applies_the_rule_to_scikit_learns_out_of_fold_probabilities()
     rng = np.random.default_rng(0)
     chosen = rng.choice(len(y), 18, replace=False)
     y[chosen] = (y[chosen] + rng.integers(1, 3, 18)) % 3
-    proba = cross_val_predict(LogisticRegression(max_iter=1000, random_state=2), X, y,
-                              cv=StratifiedKFold(5, shuffle=True, random_state=2),
+    proba = cross_val_predict(LogisticRegression(C=100.0, max_iter=1000, random_state=2),
+                              X, y, cv=StratifiedKFold(5, shuffle=True, random_state=2),
                               method="predict_proba")
     expected, _, _, _ = threshold_flags(proba, y, np.ones(len(y), bool))
     sel = class_thresholds(Space.from_matrix(X), y, removable=np.ones(len(y), bool), seed=2,

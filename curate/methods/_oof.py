@@ -36,7 +36,8 @@ from curate.methods._members import Member, estimator
 from curate.neighbours import kneighbors
 from curate.space import Space
 
-__all__ = ["OutOfFold", "coordinates", "doubt", "make_folds", "member_proba", "out_of_fold"]
+__all__ = ["OutOfFold", "coordinates", "doubt", "make_folds", "member_proba", "out_of_fold",
+           "sample_rows"]
 
 
 @dataclass
@@ -198,9 +199,39 @@ def _knn_out_of_fold(space: Space, codes: np.ndarray, n_classes: int, k: int,
     return _votes(codes, out_i, n_classes), out_d, out_i
 
 
+def sample_rows(train: np.ndarray, codes: np.ndarray, cap: int, seed: int,
+                part: int) -> np.ndarray:
+    """At most about ``cap`` of the ``train`` positions: a seeded sample, stratified by class.
+
+    Each class keeps its share of the sample (at least one row); order is kept.
+
+    Examples
+    --------
+    >>> codes = np.array([0] * 90 + [1] * 10)
+    >>> picked = sample_rows(np.arange(100), codes, 20, seed=0, part=0)
+    >>> len(picked), int(np.sum(codes[picked] == 1))
+    (20, 2)
+    >>> sample_rows(np.arange(5), codes, 20, seed=0, part=0).tolist()
+    [0, 1, 2, 3, 4]
+    """
+    if cap <= 0 or len(train) <= cap:
+        return train
+    rng = np.random.default_rng([seed, part])
+    picked = []
+    for c in np.unique(codes[train]):
+        mine = train[codes[train] == c]
+        take = max(1, int(round(cap * len(mine) / len(train))))
+        picked.append(rng.choice(mine, size=min(take, len(mine)), replace=False))
+    return np.sort(np.concatenate(picked))
+
+
 def out_of_fold(space: Space, codes: np.ndarray, n_classes: int, members: Sequence[Member],
-                fold: np.ndarray, seed: int) -> OutOfFold:
+                fold: np.ndarray, seed: int, fit_rows: int = 0) -> OutOfFold:
     """Every member's out-of-fold class probabilities for every row.
+
+    With ``fit_rows`` > 0, members other than the k-NN vote learn from a
+    seeded, stratified sample of at most about that many rows of the other
+    folds (:func:`sample_rows`); the k-NN vote always sees every row.
 
     Examples
     --------
@@ -223,6 +254,7 @@ def out_of_fold(space: Space, codes: np.ndarray, n_classes: int, members: Sequen
             continue
         for f in range(int(fold.max()) + 1):
             test = everyone[fold == f]
-            proba[m, test] = member_proba(member, space, X, codes, n_classes,
-                                          everyone[fold != f], test, seed, f"models[{m + 1}]")
+            train = sample_rows(everyone[fold != f], codes, fit_rows, seed, f)
+            proba[m, test] = member_proba(member, space, X, codes, n_classes, train, test, seed,
+                                          f"models[{m + 1}]")
     return OutOfFold(proba, fold, nbr, dist)
