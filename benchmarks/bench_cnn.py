@@ -28,8 +28,8 @@ from threadpoolctl import threadpool_limits
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from curate.methods._store import LIST_LENGTH  # noqa: E402
 from curate.methods.condensing import cnn  # noqa: E402
-from curate.methods.store import LIST_LENGTH  # noqa: E402
 from curate.neighbours import kneighbors  # noqa: E402
 from curate.space import Space  # noqa: E402
 

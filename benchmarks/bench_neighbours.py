@@ -26,7 +26,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from benchmarks.common import load_note, make_data, measure, target_line  # noqa: E402
 from curate.neighbours import engine_report, kneighbors  # noqa: E402
-from curate.space import EngineSettings, Space  # noqa: E402
+from curate.settings import EngineSettings  # noqa: E402
+from curate.space import Space  # noqa: E402
 
 
 def sklearn_brute(X: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:

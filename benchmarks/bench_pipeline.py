@@ -175,9 +175,10 @@ def recorded_recalls(summary: dict[str, Any]) -> dict[str, float]:
 def measured_recalls(frame: pl.DataFrame, run: RunFigures, memory_mb: int | None,
                      seed: int, sample: int) -> dict[str, float]:
     """Recall of the approximate engine per neighbour stage, measured here on that stage's input."""
-    from curate.methods.store import LIST_LENGTH
+    from curate.methods._store import LIST_LENGTH
     from curate.neighbours import engine_report
-    from curate.space import EngineSettings, Space
+    from curate.settings import EngineSettings
+    from curate.space import Space
 
     audit = pl.read_parquet(run.folder / "audit.parquet", columns=["row_id", "stage"])
     features = [c for c in frame.columns if c not in (LABEL, ID)]

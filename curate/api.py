@@ -1,16 +1,22 @@
-"""The Python entry points: run a pipeline and get polars frames back."""
+"""The Python entry point: run a pipeline, get polars frames back, and write the run folder."""
 
 from __future__ import annotations
 
+import json
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
-from curate.pipeline import RunResult, execute, prepare
-from curate.runfolder import write_result
-from curate.spec import Spec, load_spec, spec_from_dict
+from curate.io.output_checks import spec_inputs
+from curate.io.outputs import Claim, OutputFile, claim_output
+from curate.pipeline.loop import execute
+from curate.pipeline.prepare import prepare
+from curate.pipeline.records import RunResult
+from curate.report.html import render_run
+from curate.settings import Spec
+from curate.spec import load_spec, spec_from_dict
 
-__all__ = ["run"]
+__all__ = ["run", "write_result"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
@@ -27,8 +33,10 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
-    (paths relative to ``base``) or a checked :class:`~curate.spec.Spec`.
-    Nothing is written unless ``write`` is true or ``out`` is given.
+    (paths relative to ``base``) or a checked :class:`~curate.settings.Spec`.
+    Nothing is written unless ``write`` is true or ``out`` is given; then the
+    output folder is checked and claimed before the work starts (see
+    :mod:`curate.io.outputs`).
 
     Examples
     --------
@@ -42,9 +50,28 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     (1, [4])
     """
     spec = _as_spec(pipeline, base)
-    result = execute(prepare(spec), progress=progress)
-    if write or out is not None:
-        folder = Path(out) if out is not None else spec.output.folder
-        write_result(result, folder, spec.output.overwrite if overwrite is None else overwrite,
-                     report=spec.output.report)
+    if not write and out is None:
+        return execute(prepare(spec), progress=progress)
+    with claim_output(Path(out) if out is not None else spec.output.folder,
+                      overwrite=spec.output.overwrite if overwrite is None else overwrite,
+                      inputs=spec_inputs(spec)) as claim:
+        result = execute(prepare(spec), progress=progress)
+        write_result(result, claim, report=spec.output.report)
     return result
+
+
+def write_result(result: RunResult, claim: Claim, report: bool = True) -> None:
+    """Write kept, removed, audit, summary and report as the run folder ``claim`` holds.
+
+    The files are those of :data:`curate.io.folder.RUN_FILES`, each with its
+    size in memory (for the message of a full disk).
+    """
+    frames = [("kept.parquet", result.kept), ("removed.parquet", result.removed),
+              ("audit.parquet", result.audit), ("protected.parquet", result.spared)]
+    files = [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
+             for name, frame in frames if frame is not None]
+    files.append(OutputFile.text("summary.json",
+                                 json.dumps(result.summary, indent=2, default=str) + "\n"))
+    if report:
+        files.append(OutputFile.text("report.html", render_run(result)))
+    claim.write_folder(files, kind="run")

@@ -2,7 +2,18 @@
 
 Every error says what failed, where (file, key, column, class, first row ids
 and a count) and ends with a hint for the fix. The CLI prints
-``ErrorType: message`` and exits with the class's ``exit_code``.
+``ErrorType: message`` and exits with the class's ``exit_code``:
+
+* 2 :class:`UsageError`, :class:`PipelineFileError`, :class:`NeighbourCountError`,
+  :class:`OutputError`;
+* 3 :class:`InputError`, :class:`SchemaFailure`;
+* 4 :class:`SafetyLimitError`;
+* 1 :class:`ClusterError`, and anything that is not a :class:`CurateError` (a bug).
+
+A run stopped by SIGTERM unwinds like Ctrl-C (:class:`Terminated`, exit 143;
+Ctrl-C exits with 130). Warnings derive from :class:`CurateWarning`; the CLI prints them as
+``warning: message`` and goes on. This module imports nothing but the standard
+library, so every layer may use it.
 """
 
 from __future__ import annotations
@@ -10,11 +21,18 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 __all__ = [
+    "ClusterError",
+    "ConstantColumnWarning",
     "CurateError",
+    "CurateWarning",
     "InputError",
+    "NeighbourCountError",
+    "OutputError",
+    "OutputRecovered",
     "PipelineFileError",
     "SafetyLimitError",
     "SchemaFailure",
+    "Terminated",
     "UsageError",
     "first_ids",
 ]
@@ -47,6 +65,11 @@ class PipelineFileError(UsageError):
     """The pipeline file is missing, unreadable or has a bad key (exit code 2)."""
 
 
+class OutputError(UsageError):
+    """The output path cannot be written as asked: it is not curate's, it is busy, it
+    overlaps the input, it is not writable or its disk is full (exit code 2)."""
+
+
 class InputError(CurateError):
     """The input table cannot be used as it is (exit code 3)."""
 
@@ -65,6 +88,35 @@ class SafetyLimitError(CurateError):
     """A safety limit stopped the run before anything was written (exit code 4)."""
 
     exit_code = 4
+
+
+class NeighbourCountError(UsageError, ValueError):
+    """More neighbours were asked for than there are reference rows (exit code 2).
+
+    Also a ``ValueError``, as scikit-learn raises for the same request.
+    """
+
+
+class ClusterError(CurateError):
+    """The cluster could not be reached or lost work it could not redo (exit code 1)."""
+
+
+class CurateWarning(UserWarning):
+    """Base of every warning curate gives on purpose; the run goes on."""
+
+
+class ConstantColumnWarning(CurateWarning):
+    """A feature column has one value only and contributes nothing to distances."""
+
+
+class Terminated(KeyboardInterrupt):
+    """The process got SIGTERM; raised like Ctrl-C so that every claim is released (exit 143)."""
+
+    exit_code = 143
+
+
+class OutputRecovered(CurateWarning):
+    """curate finished or undid an interrupted replace, or took over a dead run's lock."""
 
 
 def first_ids(ids: Sequence[object], limit: int = 5) -> str:

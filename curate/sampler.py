@@ -25,14 +25,14 @@ from sklearn.utils import check_consistent_length
 from sklearn.utils.multiclass import check_classification_targets, type_of_target
 from sklearn.utils.validation import validate_data
 
-from curate.audit import AuditBuilder
 from curate.errors import UsageError
+from curate.io.schema import feature_kinds
 from curate.methods import METHODS
-from curate.methods.base import MethodInfo, check_params
-from curate.pipeline import NEIGHBOUR_FAMILIES, run_stage
-from curate.schema import feature_kinds
-from curate.space import SpaceSettings, build_space
-from curate.spec import StageSettings
+from curate.methods.base import MethodInfo
+from curate.pipeline.audit import AuditLog
+from curate.pipeline.stage import run_step
+from curate.settings import CLASS_CHOICES, SpaceSettings, StageSettings, check_params
+from curate.space.build import build_space
 
 __all__ = ["Sampler"]
 
@@ -166,14 +166,15 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         if info.uses_neighbours and frame.height < 2:
             raise ValueError(f"method {info.key!r} compares rows with their neighbours, but got "
                              f"n_samples = {frame.height}; give two or more rows")
-        if info.family in NEIGHBOUR_FAMILIES and len(np.unique(labels)) < 2:
+        if info.compares_classes and len(np.unique(labels)) < 2:
             raise ValueError(f"method {info.key!r} compares classes, but y has one class only "
                              f"({labels[0]!r}); give two or more classes")
         space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance, self.missing),
                             list(range(frame.height)), labels=labels)
         stage = StageSettings(name=info.key, method=info.key, params=params,
                               max_removed_share=1.0, classes=self._classes())
-        sel = run_stage(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed)
+        sel = run_step(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed,
+                       list(range(frame.height))).selection
         self.sample_indices_ = np.sort(sel.kept)
         self.audit_ = _audit(info, sel, labels)
         self.scores_ = dict(sel.scores)
@@ -193,7 +194,7 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         return info, check_params(info, dict(self.params or {}), where=f"Sampler({info.key})")
 
     def _classes(self) -> str | tuple[Any, ...]:
-        if isinstance(self.classes, str) and self.classes in ("all", "all-but-smallest"):
+        if isinstance(self.classes, str) and self.classes in CLASS_CHOICES:
             return self.classes
         if isinstance(self.classes, list | tuple | np.ndarray) and len(self.classes) > 0:
             return tuple(self.classes)
@@ -255,7 +256,7 @@ def _labels(y: Any) -> np.ndarray:
 
 def _audit(info: MethodInfo, sel: Any, labels: np.ndarray) -> pl.DataFrame:
     """The audit table of one selection; row ids are input positions."""
-    builder = AuditBuilder(pl.Series("row_id", np.arange(len(labels), dtype=np.int64)),
+    builder = AuditLog(pl.Series("row_id", np.arange(len(labels), dtype=np.int64)),
                            pl.Series("label", labels))
     builder.add(stage=info.key, method=info.key, positions=sel.removed, reason=sel.reason,
                 detail=sel.detail, neighbours=sel.neighbours, distances=sel.distances,

@@ -1,6 +1,7 @@
 """The pipeline file (TOML) becomes frozen, validated settings; unknown keys are errors.
 
-Every problem names the file, the key, its line and the allowed values.
+Every problem names the file, the key, its line and the allowed values. The
+settings themselves, and the values they allow, are in :mod:`curate.settings`.
 """
 
 from __future__ import annotations
@@ -8,113 +9,36 @@ from __future__ import annotations
 import hashlib
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 from curate.errors import PipelineFileError, UsageError
 from curate.methods import METHODS
-from curate.methods.base import check_params
-from curate.space import DISTANCES, MISSING_POLICIES, SCALES, EngineSettings, SpaceSettings
+from curate.settings import (
+    BACKENDS,
+    CLASS_CHOICES,
+    COLUMN_TYPES,
+    DISTANCES,
+    MISSING_POLICIES,
+    ON_INVALID,
+    SCALES,
+    ClusterSettings,
+    ColumnRule,
+    EngineSettings,
+    InputSettings,
+    OutputSettings,
+    RunSettings,
+    SpaceSettings,
+    Spec,
+    StageSettings,
+    check_params,
+    local_workers,
+)
 
-__all__ = ["ColumnRule", "InputSettings", "OutputSettings", "RunSettings", "Spec", "StageSettings",
-           "load_spec", "spec_from_dict", "COLUMN_TYPES"]
+__all__ = ["load_spec", "spec_from_dict"]
 
-COLUMN_TYPES = ("float", "int", "category", "bool", "string")
-BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
 STAGE_KEYS = ("name", "method", "max_removed_share", "classes", "seed")
-
-
-@dataclass(frozen=True)
-class ColumnRule:
-    """A rule for one input column written in the pipeline file."""
-
-    name: str
-    type: str | None = None
-    min: float | None = None
-    max: float | None = None
-    nullable: bool = False
-    allowed: tuple[Any, ...] | None = None
-    unique: bool = False
-
-
-@dataclass(frozen=True)
-class InputSettings:
-    """The ``[input]`` section."""
-
-    path: Path
-    label: str
-    id: str | None = None
-    ignore: tuple[str, ...] = ()
-    features: tuple[str, ...] | None = None
-    schema: str | None = None
-    on_invalid: str = "stop"
-    columns: tuple[ColumnRule, ...] = ()
-    protect: tuple[Any, ...] = ()
-    protect_file: Path | None = None
-
-
-@dataclass(frozen=True)
-class StageSettings:
-    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits."""
-
-    name: str
-    method: str
-    params: Mapping[str, Any]
-    max_removed_share: float = 0.5
-    classes: str | tuple[Any, ...] = "all"
-    seed: int | None = None
-
-
-@dataclass(frozen=True)
-class OutputSettings:
-    """The ``[output]`` section."""
-
-    folder: Path
-    overwrite: bool = False
-    scores: bool = True
-    report: bool = True
-
-
-@dataclass(frozen=True)
-class RunSettings:
-    """The ``[run]`` section: seed and neighbour engine."""
-
-    seed: int = 0
-    engine: EngineSettings = EngineSettings()
-
-
-@dataclass(frozen=True)
-class ClusterSettings:
-    """The ``[cluster]`` section: where a Dask scheduler listens, if anywhere.
-
-    ``address`` is a scheduler address or ``"local:N"`` (N worker processes
-    started for the run); ``partitions`` splits condensing and hybrid stages
-    (default: one per worker); ``retries`` reruns a task that raised;
-    ``block_rows`` is the query rows per task; ``timeout`` (seconds) bounds the
-    wait for one batch of tasks. See :mod:`curate.distributed`.
-    """
-
-    address: str | None = None
-    partitions: int | None = None
-    retries: int = 2
-    block_rows: int = 4096
-    timeout: float = 3600.0
-
-
-@dataclass(frozen=True)
-class Spec:
-    """A whole pipeline file, checked."""
-
-    input: InputSettings
-    space: SpaceSettings
-    stages: tuple[StageSettings, ...]
-    output: OutputSettings
-    run: RunSettings = RunSettings()
-    cluster: ClusterSettings = ClusterSettings()
-    source: str = "<dict>"
-    sha256: str = ""
-    raw: Mapping[str, Any] = field(default_factory=dict)
 
 
 class _Where:
@@ -217,7 +141,7 @@ def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
         ignore=tuple(_get(where, "input", data, "ignore", list, [])),
         features=tuple(features) if features is not None else None,
         schema=_schema_ref(where, data, base),
-        on_invalid=_get(where, "input", data, "on_invalid", str, "stop", ("stop", "quarantine")),
+        on_invalid=_get(where, "input", data, "on_invalid", str, "stop", ON_INVALID),
         columns=_columns(where, _get(where, "input", data, "columns", dict, {})),
         protect=tuple(_get(where, "input", data, "protect", list, [])),
         protect_file=(base / protect_file).resolve() if protect_file else None,
@@ -264,7 +188,7 @@ def _classes(where: _Where, body: Mapping[str, Any], index: int) -> str | tuple[
     value = body.get("classes", "all")
     if isinstance(value, list) and value:
         return tuple(value)
-    if value in ("all", "all-but-smallest"):
+    if value in CLASS_CHOICES:
         return str(value)
     _fail(where, "stages", "classes", f"got {value!r}",
           "use \"all\", \"all-but-smallest\" or a non-empty list of labels", index)
@@ -312,8 +236,6 @@ def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> 
 
 
 def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
-    from curate.distributed import local_workers
-
     _known(where, "cluster", data, ("address", "partitions", "retries", "block_rows", "timeout"))
     address = _get(where, "cluster", data, "address", str, None)
     try:

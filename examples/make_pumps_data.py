@@ -10,7 +10,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from curate.demo_data import write
+from curate.demo.data import write
 
 
 def main(argv: list[str] | None = None) -> int:

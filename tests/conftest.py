@@ -1,4 +1,10 @@
-"""Tiny hand-made fixtures shared by the tests; nothing is loaded at import time."""
+"""Fixtures shared by every test folder: tiny hand-made tables, pipeline files, open data.
+
+The folders mirror curate's packages (tests/methods for curate/methods, ...);
+each has its own conftest.py for what only its tests share. Open data comes
+from :mod:`open_data`: scikit-learn's bundled sets, read once per process.
+Nothing is loaded at import time.
+"""
 
 from __future__ import annotations
 
@@ -6,6 +12,8 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+import numpy as np
+import open_data
 import polars as pl
 import pytest
 
@@ -58,3 +66,27 @@ def make_pipeline(tmp_path: Path) -> Callable[..., Path]:
         return path
 
     return make
+
+
+@pytest.fixture
+def wine() -> tuple[np.ndarray, np.ndarray]:
+    """scikit-learn's bundled wine set, ``(X, y)``: read once per process, a fresh copy per test."""
+    return open_data.load("wine")
+
+
+@pytest.fixture
+def iris() -> tuple[np.ndarray, np.ndarray]:
+    """scikit-learn's bundled iris set, ``(X, y)``: read once per process, a fresh copy per test."""
+    return open_data.load("iris")
+
+
+@pytest.fixture
+def breast_cancer() -> tuple[np.ndarray, np.ndarray]:
+    """scikit-learn's bundled breast cancer set, ``(X, y)``: read once, a fresh copy per test."""
+    return open_data.load("breast_cancer")
+
+
+def pytest_ignore_collect(collection_path: Path) -> bool | None:
+    """Collect no conftest.py as a module of doctests: each folder has one, and several
+    modules all named ``conftest`` would clash (they hold fixtures, not doctests)."""
+    return True if collection_path.name == "conftest.py" else None

@@ -10,18 +10,19 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import open_data
 import polars as pl
 
-from curate.spec import Spec, spec_from_dict
+from curate.settings import Spec
+from curate.spec import spec_from_dict
 
 NOTHING_REMOVED = [{"method": "exact-duplicates"}]
 
 
 def wine_csv(folder: Path) -> tuple[Path, np.ndarray, np.ndarray]:
     """Write scikit-learn's wine set as CSV; return its path, features and labels."""
-    from sklearn.datasets import load_wine
 
-    data = load_wine()
+    data = open_data.bunch("wine")
     frame = pl.DataFrame(data.data, schema=[f"f{j}" for j in range(data.data.shape[1])],
                          orient="row").with_columns(pl.Series("target", data.target))
     path = folder / "wine.csv"

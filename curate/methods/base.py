@@ -1,8 +1,10 @@
-"""What every method shares: the declared parameter table and the Selection it returns.
+"""What every method shares: its declaration and the Selection it returns.
 
 A method is a pure function ``method(space, labels, *, removable, seed, **params)``
-returning a :class:`Selection` of positions local to ``space``. It never reads
-files, never keeps state and draws randomness only from ``seed``.
+returning a :class:`Selection` of positions local to ``space``, built with a
+:class:`SelectionBuilder`. It never reads files, never keeps state and draws
+randomness only from ``seed``. Its :class:`MethodInfo` declares its parameters
+(:class:`curate.settings.Param`), its reason codes and what it can do.
 """
 
 from __future__ import annotations
@@ -13,81 +15,22 @@ from typing import Any
 
 import numpy as np
 
-from curate.errors import UsageError
+from curate.settings import Param
 
-__all__ = ["MethodInfo", "Param", "Removals", "Selection", "check_params", "describe_votes",
-           "encode", "require_rows", "vote_counts"]
-
-
-@dataclass(frozen=True)
-class Param:
-    """One declared parameter of a method.
-
-    ``kind`` is the Python type accepted (``int``, ``float``, ``str``, ``bool``,
-    ``list``); ``choices`` lists allowed values; ``low``/``high`` bound numbers
-    (inclusive); ``check`` is an extra predicate with its own wording.
-    """
-
-    name: str
-    kind: type | tuple[type, ...]
-    default: Any
-    doc: str
-    choices: tuple[Any, ...] | None = None
-    low: float | None = None
-    high: float | None = None
-    check: Callable[[Any], bool] | None = None
-    check_says: str = ""
-    required: bool = False
-
-    def allowed(self) -> str:
-        """Describe the allowed values in words.
-
-        Examples
-        --------
-        >>> Param("k", int, 3, "neighbours", low=1).allowed()
-        'an integer >= 1'
-        >>> Param("vote", str, "majority", "rule", choices=("majority", "unanimous")).allowed()
-        "one of 'majority', 'unanimous'"
-        """
-        if self.choices is not None:
-            return "one of " + ", ".join(repr(c) for c in self.choices)
-        kinds = self.kind if isinstance(self.kind, tuple) else (self.kind,)
-        names = {int: "an integer", float: "a number", str: "a string", bool: "true or false",
-                 list: "a list"}
-        words = " or ".join(names.get(k, k.__name__) for k in kinds)
-        if self.low is not None and self.high is not None:
-            words += f" from {self.low} to {self.high}"
-        elif self.low is not None:
-            words += f" >= {self.low:g}"
-        elif self.high is not None:
-            words += f" <= {self.high:g}"
-        if self.check_says:
-            words += f" ({self.check_says})"
-        return words
-
-    def problem(self, value: Any) -> str | None:
-        """Return why ``value`` is not allowed, or None when it is."""
-        kinds = self.kind if isinstance(self.kind, tuple) else (self.kind,)
-        ok_type = any(
-            isinstance(value, k) and not (k in (int, float) and isinstance(value, bool))
-            for k in kinds
-        ) or (float in kinds and isinstance(value, int) and not isinstance(value, bool))
-        if not ok_type:
-            return f"got {value!r}, expected {self.allowed()}"
-        if self.choices is not None and value not in self.choices:
-            return f"got {value!r}, expected {self.allowed()}"
-        if self.low is not None and value < self.low:
-            return f"got {value!r}, expected {self.allowed()}"
-        if self.high is not None and value > self.high:
-            return f"got {value!r}, expected {self.allowed()}"
-        if self.check is not None and not self.check(value):
-            return f"got {value!r}, expected {self.allowed()}"
-        return None
+__all__ = ["MethodInfo", "Selection", "SelectionBuilder", "encode"]
 
 
 @dataclass(frozen=True)
 class MethodInfo:
-    """The declaration of one method: its key, published name, parameters and reasons."""
+    """The declaration of one method: its key, published name, parameters and reasons.
+
+    Capabilities, read by the layers above instead of family names:
+    ``uses_neighbours`` (the stage's ``k`` must fit the rows it gets),
+    ``compares_classes`` (its input needs two or more classes, and every class
+    more rows than ``k``), ``runs_partitioned`` (on a cluster it runs per
+    stratified partition, then over their union, instead of sending its
+    neighbour queries to the workers).
+    """
 
     key: str
     name: str
@@ -98,6 +41,8 @@ class MethodInfo:
     params: tuple[Param, ...]
     reasons: dict[str, str]
     uses_neighbours: bool = True
+    compares_classes: bool = False
+    runs_partitioned: bool = False
 
     def defaults(self) -> dict[str, Any]:
         """Return the default of every parameter."""
@@ -106,42 +51,6 @@ class MethodInfo:
     def param(self, name: str) -> Param | None:
         """Return the declared parameter called ``name``, if any."""
         return next((p for p in self.params if p.name == name), None)
-
-
-def check_params(info: MethodInfo, given: dict[str, Any], *, where: str = "") -> dict[str, Any]:
-    """Check ``given`` against the method's table and fill defaults.
-
-    Examples
-    --------
-    >>> from curate.methods import METHODS
-    >>> check_params(METHODS["enn"], {"k": 5})["k"]
-    5
-    >>> check_params(METHODS["enn"], {"k": 0})
-    Traceback (most recent call last):
-    ...
-    curate.errors.UsageError: enn: parameter 'k' got 0, expected an integer >= 1
-      hint: set k to an integer >= 1
-    """
-    prefix = f"{where}: " if where else f"{info.key}: "
-    out = info.defaults()
-    for name, value in given.items():
-        param = info.param(name)
-        if param is None:
-            known = ", ".join(p.name for p in info.params)
-            raise UsageError(
-                f"{prefix}unknown parameter {name!r} for method {info.key!r}",
-                hint=f"the parameters of {info.key} are: {known}",
-            )
-        problem = param.problem(value)
-        if problem is not None:
-            raise UsageError(f"{prefix}parameter {name!r} {problem}",
-                             hint=f"set {name} to {param.allowed()}")
-        out[name] = value
-    for param in info.params:
-        if param.required and out.get(param.name) is None:
-            raise UsageError(f"{prefix}parameter {param.name!r} is required ({param.doc})",
-                             hint=f"set {param.name} to {param.allowed()}")
-    return out
 
 
 @dataclass
@@ -172,12 +81,13 @@ class Selection:
         return int(len(self.kept) + len(self.removed))
 
 
-class Removals:
-    """Collects removal records in order, then builds the :class:`Selection`.
+class SelectionBuilder:
+    """Collects one method's removals, in positions local to its space, then builds the
+    :class:`Selection` (the run maps it to input rows and the audit table later).
 
     Examples
     --------
-    >>> r = Removals(4)
+    >>> r = SelectionBuilder(4)
     >>> r.add(2, "reason", "a plain sentence", neighbours=[1], distances=[0.5], kept_as=1)
     >>> s = r.selection()
     >>> s.kept.tolist(), s.removed.tolist(), s.kept_as.tolist()
@@ -232,22 +142,6 @@ class Removals:
         )
 
 
-def require_rows(n: int, k: int, key: str) -> None:
-    """Stop with a clear message when a stage gets too few rows for ``k`` neighbours.
-
-    Examples
-    --------
-    >>> require_rows(3, 3, "enn")
-    Traceback (most recent call last):
-    ...
-    curate.errors.UsageError: enn: k = 3 needs at least 4 rows, but the stage got 3
-      hint: lower k below 3, or run this stage on a larger table
-    """
-    if k + 1 > n:
-        raise UsageError(f"{key}: k = {k} needs at least {k + 1} rows, but the stage got {n}",
-                         hint=f"lower k below {n}, or run this stage on a larger table")
-
-
 def encode(labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Return (distinct labels in sorted order, integer code per row).
 
@@ -259,39 +153,3 @@ def encode(labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """
     names, codes = np.unique(labels, return_inverse=True)
     return names, codes.astype(np.int64).reshape(-1)
-
-
-def vote_counts(codes: np.ndarray, neighbour_pos: np.ndarray, n_classes: int) -> np.ndarray:
-    """Count neighbour labels per row: an ``(n, n_classes)`` integer matrix."""
-    counts = np.zeros((neighbour_pos.shape[0], n_classes), dtype=np.int64)
-    rows = np.arange(neighbour_pos.shape[0])
-    for j in range(neighbour_pos.shape[1]):
-        np.add.at(counts, (rows, codes[neighbour_pos[:, j]]), 1)
-    return counts
-
-
-def describe_votes(counts: np.ndarray, names: np.ndarray, own: int) -> str:
-    """Say in words how neighbours voted, most votes first.
-
-    Examples
-    --------
-    >>> describe_votes(np.array([2, 1]), np.array(["ok", "worn"]), 1)
-    "2 of its 3 nearest neighbours are labelled 'ok', 1 'worn' (its own label)"
-    >>> describe_votes(np.array([1, 0]), np.array(["ok", "worn"]), 1)
-    "its nearest neighbour is labelled 'ok', none 'worn' (its own label)"
-    """
-    k = int(counts.sum())
-    order = sorted(np.flatnonzero(counts), key=lambda c: (-counts[c], c))
-    parts = []
-    for i, c in enumerate(order):
-        mark = " (its own label)" if c == own else ""
-        if i > 0:
-            lead = f"{counts[c]} "
-        elif k == 1:
-            lead = "its nearest neighbour is labelled "
-        else:
-            lead = f"{counts[c]} of its {k} nearest neighbours are labelled "
-        parts.append(f"{lead}{str(names[c])!r}{mark}")
-    if own not in order:
-        parts.append(f"none {str(names[own])!r} (its own label)")
-    return ", ".join(parts)

@@ -10,79 +10,21 @@ from __future__ import annotations
 
 import numpy as np
 
-from curate.errors import UsageError
-from curate.methods.base import (
-    MethodInfo,
-    Param,
-    Removals,
-    Selection,
-    encode,
-    require_rows,
-    vote_counts,
-)
-from curate.methods.editing import add_vote_records, misclassified
-from curate.neighbours import kneighbors
-from curate.space import Space
+from curate.methods._neighbourhood import interest_class, tomek_links
+from curate.methods._votes import add_vote_records, misclassified, vote_counts
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
+from curate.neighbours.search import kneighbors, require_neighbours
+from curate.settings import Param
+from curate.space.points import Space
 
-__all__ = ["NCR", "TOMEK_LINKS", "interest_class", "ncr", "tomek_links"]
-
-
-def tomek_links(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 0,
-                remove: str = "both") -> Selection:
-    """Remove the members of Tomek links (Tomek 1976).
-
-    Rows i and j form a link when each is the other's nearest neighbour and
-    their labels differ. A row's nearest neighbour is the closest other row;
-    among rows at the same distance the one at the lower position counts, so
-    every row has exactly one nearest neighbour. ``remove="both"`` removes
-    each member of a link that ``removable`` allows; ``remove="larger"``
-    removes only the member whose class has more rows in the stage (both when
-    the two classes are the same size), the way under-sampling uses links to
-    spare a small class. A removed row's ``kept_as`` is its partner when the
-    partner stays.
-
-    The same as imbalanced-learn's TomekLinks with ``sampling_strategy="all"``
-    (``remove="both"``), apart from rows with two equally near neighbours,
-    where scikit-learn's neighbour search does not promise an order.
-
-    When not to use it: links only touch the very border, so one pass removes
-    few rows and finds few mislabels in a class's interior; use ENN for that.
-    With exact copies of opposite labels, every copy pair is a link.
-
-    Examples
-    --------
-    >>> s = Space.from_matrix([[0.0], [1.0], [1.4], [3.0], [3.2]])
-    >>> y = np.array(["a", "a", "b", "b", "b"])
-    >>> sel = tomek_links(s, y, removable=np.array([True, True, True, True, True]))
-    >>> sel.removed.tolist(), sel.kept_as.tolist()
-    ([1, 2], [-1, -1])
-    >>> sel = tomek_links(s, y, removable=np.array([True, False, True, True, True]))
-    >>> sel.removed.tolist(), sel.kept_as.tolist()
-    ([2], [1])
-    """
-    require_rows(space.n, 1, "tomek-links")
-    names, codes = encode(labels)
-    dist, nbr = kneighbors(space, 1)
-    near = nbr[:, 0]
-    linked = (near[near] == np.arange(space.n)) & (codes[near] != codes)
-    going = linked & removable
-    if remove == "larger":
-        sizes = np.bincount(codes)
-        going &= sizes[codes] >= sizes[codes[near]]
-    out = Removals(space.n)
-    for i in np.flatnonzero(going):
-        j = int(near[i])
-        out.add(int(i), "tomek-link",
-                f"its nearest neighbour, labelled {str(names[codes[j]])!r}, has it as its own "
-                f"nearest neighbour, and its label {str(names[codes[i]])!r} differs",
-                neighbours=[j], distances=dist[i], kept_as=-1 if going[j] else j)
-    return out.selection(info={"links": int(linked.sum()) // 2})
+__all__ = ["NCR", "TOMEK_LINKS", "ncr", "tomek_links"]
 
 
 TOMEK_LINKS = MethodInfo(
     key="tomek-links", name="Tomek links", family="editing", reference="Tomek 1976",
     purpose="clean class borders: remove pairs of rows from different classes that are "
             "each other's nearest neighbour",
+    compares_classes=True,
     func=tomek_links,
     params=(Param("remove", str, "both", "both: every member of a link that the stage may "
                   "remove; larger: only the member from the larger class",
@@ -90,26 +32,6 @@ TOMEK_LINKS = MethodInfo(
     reasons={"tomek-link": "it and its nearest neighbour are each other's nearest neighbour "
                            "and their labels differ"},
 )
-
-
-def interest_class(names: np.ndarray, codes: np.ndarray, interest: str | int) -> int:
-    """Code of the class of interest: the named one, or the smallest (first label on ties).
-
-    Examples
-    --------
-    >>> interest_class(np.array(["a", "b"]), np.array([0, 0, 1]), "smallest")
-    1
-    >>> interest_class(np.array(["a", "b"]), np.array([0, 0, 1]), "a")
-    0
-    """
-    if interest == "smallest":
-        return int(np.argmin(np.bincount(codes, minlength=len(names))))
-    found = [c for c, name in enumerate(names) if str(name) == str(interest)]
-    if not found:
-        shown = ", ".join(repr(str(n)) for n in names[:10])
-        raise UsageError(f"ncr: class of interest {interest!r} is not among the stage's labels",
-                         hint=f"set interest to 'smallest' or to one of: {shown}")
-    return found[0]
 
 
 def _crowding(codes: np.ndarray, nbr: np.ndarray, dist: np.ndarray, missed: np.ndarray,
@@ -161,7 +83,7 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     >>> sel.removed.tolist(), sel.reason[0], [n.tolist() for n in sel.neighbours]
     ([1, 2, 4], 'crowds-interest', [[3], [3], [3]])
     """
-    require_rows(space.n, k, "ncr")
+    require_neighbours(k, space.n, where="ncr: ")
     names, codes = encode(labels)
     target = interest_class(names, codes, interest)
     dist, nbr = kneighbors(space, k)
@@ -174,7 +96,7 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     crowd = _crowding(codes, nbr, dist, np.flatnonzero(wrong & (codes == target)), cleanable)
     a2 = np.zeros(space.n, dtype=bool)
     a2[list(crowd)] = True
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     label = repr(str(names[target]))
     for i in np.flatnonzero(a1 | (a2 & removable)):
         near = sorted(crowd.get(int(i), []), key=lambda pair: (pair[1], pair[0]))
@@ -199,6 +121,7 @@ NCR = MethodInfo(
     reference="Laurikkala 2001",
     purpose="sharpen a small class of interest: remove other-class rows that ENN outvotes "
             "or that crowd its misclassified rows",
+    compares_classes=True,
     func=ncr,
     params=(
         Param("k", int, 3, "neighbours that vote and that are cleaned", low=1),

@@ -19,10 +19,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from curate.methods.base import MethodInfo, Param, Removals, Selection, encode
-from curate.methods.store import LIST_LENGTH, NearestStore
-from curate.neighbours import kneighbors, pairwise
-from curate.space import Space
+from curate.methods._store import LIST_LENGTH, NearestStore
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
+from curate.neighbours.search import kneighbors
+from curate.settings import Param
+from curate.space.distance import pairwise
+from curate.space.points import Space
 
 __all__ = ["CNN", "FCNN", "RNN", "cnn", "fcnn", "rnn"]
 
@@ -56,7 +58,7 @@ def _condense(space: Space, codes: np.ndarray, removable: np.ndarray, seed: int,
     return store, store.hart(codes, presented)
 
 
-def _absorbed(out: Removals, rows: np.ndarray, near: np.ndarray, dist: np.ndarray,
+def _absorbed(out: SelectionBuilder, rows: np.ndarray, near: np.ndarray, dist: np.ndarray,
               names: np.ndarray, codes: np.ndarray, step: int) -> None:
     for i in rows:
         j = int(near[i])
@@ -85,7 +87,7 @@ def cnn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     >>> sel.kept.tolist(), sel.kept_as.tolist()
     ([0, 3], [0, 0, 3, 3])
     """
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     if space.n == 0:
         return out.selection(info={"passes": 0})
     names, codes = encode(labels)
@@ -148,7 +150,7 @@ def fcnn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int =
     >>> fcnn(s, y, removable=np.ones(6, bool)).kept.tolist()
     [1, 4]
     """
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     if space.n == 0:
         return out.selection(info={"steps": 0})
     names, codes = encode(labels)
@@ -250,7 +252,7 @@ def rnn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     >>> rnn(s, y, removable=np.ones(6, bool), order="input").kept.tolist()
     [0, 3]
     """
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     if space.n == 0:
         return out.selection(info={"passes": 0})
     names, codes = encode(labels)
@@ -276,6 +278,7 @@ CNN = MethodInfo(
     key="cnn", name="Condensed Nearest Neighbour (CNN)", family="condensing",
     reference="Hart 1968",
     purpose="shrink the set to rows that 1-NN needs to label every input row correctly",
+    compares_classes=True, runs_partitioned=True,
     func=cnn,
     params=(Param("order", str, "shuffled", "the order rows are presented in: shuffled "
                   "(seeded random order) or input (the order of the table)",
@@ -288,6 +291,7 @@ FCNN = MethodInfo(
     reference="Angiulli 2007",
     purpose="shrink the set to rows that 1-NN needs, independent of row order and fast on "
             "large inputs",
+    compares_classes=True, runs_partitioned=True,
     func=fcnn,
     params=(),
     reasons=dict(_ABSORBED),
@@ -297,6 +301,7 @@ RNN = MethodInfo(
     key="rnn", name="Reduced Nearest Neighbour (RNN)", family="condensing",
     reference="Gates 1972",
     purpose="shrink CNN's result further while 1-NN still labels every input row correctly",
+    compares_classes=True, runs_partitioned=True,
     func=rnn,
     params=CNN.params,
     reasons={**_ABSORBED,

@@ -9,60 +9,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from curate.methods.base import (
-    MethodInfo,
-    Param,
-    Removals,
-    Selection,
-    describe_votes,
-    encode,
-    require_rows,
-    vote_counts,
-)
-from curate.neighbours import kneighbors
-from curate.space import Space
+from curate.methods._votes import add_vote_records, enn_pass, misclassified
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
+from curate.neighbours.search import kneighbors, require_neighbours
+from curate.settings import Param
+from curate.space.points import Space
 
-__all__ = ["ALL_KNN", "ENN", "RENN", "add_vote_records", "all_knn", "enn", "enn_pass",
-           "misclassified", "renn"]
-
-
-def misclassified(counts: np.ndarray, own: np.ndarray, vote: str) -> np.ndarray:
-    """Rows that the neighbours' vote gets wrong.
-
-    ``majority``: the k-NN rule misclassifies the row, i.e. some other label
-    has strictly more votes than its own (Wilson 1972). When its own label ties
-    for the most votes the vote is not against it, and the row stays.
-    ``unanimous``: the row goes unless every neighbour shares its label.
-
-    Examples
-    --------
-    >>> c = np.array([[2, 1, 0], [1, 1, 1], [0, 3, 0]])
-    >>> misclassified(c, np.array([1, 2, 1]), "majority").tolist()
-    [True, False, False]
-    >>> misclassified(c, np.array([1, 2, 1]), "unanimous").tolist()
-    [True, True, False]
-    """
-    mine = counts[np.arange(len(own)), own]
-    if vote == "unanimous":
-        return mine < counts.sum(axis=1)
-    return counts.max(axis=1) > mine
-
-
-def enn_pass(space: Space, codes: np.ndarray, k: int, vote: str,
-             active: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """One ENN pass among ``active`` positions: (misclassified mask, neighbour dists, positions).
-
-    Examples
-    --------
-    >>> s = Space.from_matrix([[0.0], [1.0], [2.0], [9.0]])
-    >>> wrong, dist, nbr = enn_pass(s, np.array([0, 0, 1, 1]), 1, "majority")
-    >>> wrong.tolist(), nbr[:, 0].tolist()
-    ([False, False, True, False], [1, 0, 1, 2])
-    """
-    pos = np.arange(space.n) if active is None else active
-    dist, nbr = kneighbors(space, k, queries=pos, reference=pos)
-    counts = vote_counts(codes, nbr, int(codes.max(initial=0)) + 1)
-    return misclassified(counts, codes[pos], vote), dist, nbr
+__all__ = ["ALL_KNN", "ENN", "RENN", "all_knn", "enn", "renn"]
 
 
 def enn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 0,
@@ -80,33 +33,13 @@ def enn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     >>> enn(s, y, removable=np.ones(7, bool)).removed.tolist()
     [2]
     """
-    require_rows(space.n, k, "enn")
+    require_neighbours(k, space.n, where="enn: ")
     names, codes = encode(labels)
     wrong, dist, nbr = enn_pass(space, codes, k, vote)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     rows = np.flatnonzero(wrong & removable)
     add_vote_records(out, rows, rows, codes, names, nbr, dist)
     return out.selection()
-
-
-def add_vote_records(out: Removals, positions: np.ndarray, rows: np.ndarray, codes: np.ndarray,
-                     names: np.ndarray, nbr: np.ndarray, dist: np.ndarray, *,
-                     step: int = 1, suffix: str = "") -> None:
-    """Record ``positions`` as outvoted; ``rows`` index their lines in ``nbr``/``dist``.
-
-    Examples
-    --------
-    >>> out = Removals(3)
-    >>> add_vote_records(out, np.array([2]), np.array([0]), np.array([0, 0, 1]),
-    ...                  np.array(["ok", "worn"]), np.array([[1, 0]]), np.array([[1.0, 2.0]]))
-    >>> out.selection().detail
-    ["2 of its 2 nearest neighbours are labelled 'ok', none 'worn' (its own label)"]
-    """
-    for pos, row in zip(positions, rows, strict=True):
-        counts = np.bincount(codes[nbr[row]], minlength=len(names))
-        out.add(int(pos), "knn-disagrees",
-                describe_votes(counts, names, int(codes[pos])) + suffix,
-                neighbours=nbr[row], distances=dist[row], step=step)
 
 
 _K = Param("k", int, 3, "neighbours that vote", low=1)
@@ -119,6 +52,7 @@ ENN = MethodInfo(
     key="enn", name="Edited Nearest Neighbours (ENN)", family="editing",
     reference="Wilson 1972",
     purpose="remove likely mislabels: rows their k nearest neighbours vote against",
+    compares_classes=True,
     func=enn,
     params=(_K, _VOTE),
     reasons=_OUTVOTED,
@@ -158,10 +92,10 @@ def renn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int =
     >>> sel.removed.tolist(), sel.step.tolist(), sel.info["stopped"]
     ([6, 7], [1, 2], 'no change')
     """
-    require_rows(space.n, k, "renn")
+    require_neighbours(k, space.n, where="renn: ")
     names, codes = encode(labels)
     active = np.arange(space.n, dtype=np.int64)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     stopped, rounds = "max_rounds", 0
     while rounds < max_rounds:
         if len(active) <= k:
@@ -184,6 +118,7 @@ RENN = MethodInfo(
     reference="Tomek 1976",
     purpose="remove likely mislabels more thoroughly than ENN: repeat ENN on the rows left "
             "until nothing changes",
+    compares_classes=True,
     func=renn,
     params=(_K, _VOTE,
             Param("max_rounds", int, 100, "stop after this many rounds even if rows still go",
@@ -223,7 +158,7 @@ def all_knn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: in
     >>> sel.removed.tolist(), sel.step.tolist()
     ([3, 4, 5], [1, 3, 3])
     """
-    require_rows(space.n, k, "all-knn")
+    require_neighbours(k, space.n, where="all-knn: ")
     names, codes = encode(labels)
     dist, nbr = kneighbors(space, k)
     first = np.zeros(space.n, dtype=np.int64)
@@ -232,7 +167,7 @@ def all_knn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: in
     for j in range(1, k + 1):
         np.add.at(counts, (rows, codes[nbr[:, j - 1]]), 1)
         first[misclassified(counts, codes, vote) & removable & (first == 0)] = j
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     for i in np.flatnonzero(first):
         j = int(first[i])
         add_vote_records(out, np.array([i]), np.array([0]), codes, names,
@@ -244,6 +179,7 @@ ALL_KNN = MethodInfo(
     key="all-knn", name="All k-NN", family="editing", reference="Tomek 1976",
     purpose="remove likely mislabels that the vote of any neighbourhood size up to k "
             "gets wrong",
+    compares_classes=True,
     func=all_knn,
     params=(Param("k", int, 3, "the largest number of neighbours that vote", low=1), _VOTE),
     reasons=_OUTVOTED,

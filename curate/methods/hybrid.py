@@ -10,19 +10,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from curate.methods.base import (
-    MethodInfo,
-    Param,
-    Removals,
-    Selection,
-    describe_votes,
-    encode,
-    require_rows,
-)
-from curate.methods.editing import enn_pass
-from curate.methods.near import nearest_enemy
-from curate.neighbours import kneighbors
-from curate.space import Space
+from curate.methods._neighbourhood import nearest_enemy
+from curate.methods._votes import describe_votes, enn_pass
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
+from curate.neighbours.search import kneighbors, require_neighbours
+from curate.settings import Param
+from curate.space.points import Space
 
 __all__ = ["DROP3", "ICF", "drop3", "icf"]
 
@@ -122,7 +115,7 @@ def _with_without(p: int, group: list[int], lists: _NeighbourLists, codes: list[
 
 
 def _noise_pass(space: Space, codes: np.ndarray, names: np.ndarray, k: int,
-                active: np.ndarray, removable: np.ndarray, out: Removals, step: int) -> np.ndarray:
+                active: np.ndarray, removable: np.ndarray, out: SelectionBuilder, step: int) -> np.ndarray:
     """One ENN pass among ``active`` rows; record removals; return the removed positions."""
     wrong, dist, nbr = enn_pass(space, codes, k, "majority", active=active)
     gone = np.flatnonzero(wrong & removable[active])
@@ -160,9 +153,9 @@ def drop3(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int 
     >>> drop3(s, y, removable=np.ones(8, bool), k=1).kept.tolist()
     [2, 3, 4, 5]
     """
-    require_rows(space.n, k, "drop3")
+    require_neighbours(k, space.n, where="drop3: ")
     names, codes = encode(labels)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     noise = _noise_pass(space, codes, names, k, np.arange(space.n), removable, out, 1)
     in_s = np.ones(space.n, dtype=bool)
     in_s[noise] = False
@@ -266,9 +259,9 @@ def icf(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     >>> icf(s, y, removable=np.ones(6, bool), k=1).kept.tolist()
     [2, 3, 4, 5]
     """
-    require_rows(space.n, k, "icf")
+    require_neighbours(k, space.n, where="icf: ")
     names, codes = encode(labels)
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     active, step = np.arange(space.n), 0
     while len(active) > k:
         gone = _noise_pass(space, codes, names, k, active, removable, out, step + 1)
@@ -298,6 +291,7 @@ DROP3 = MethodInfo(
     reference="Wilson and Martinez 2000",
     purpose="shrink the set to border rows: ENN noise pass, then remove rows whose associates "
             "are classified at least as well without them",
+    compares_classes=True, runs_partitioned=True,
     func=drop3,
     params=(Param("k", int, 3, "neighbours for the noise pass and for classifying associates",
                   low=1),),
@@ -310,6 +304,7 @@ ICF = MethodInfo(
     reference="Brighton and Mellish 2002",
     purpose="shrink the set to border rows: repeated ENN, then remove rows reached by more "
             "rows than they cover",
+    compares_classes=True, runs_partitioned=True,
     func=icf,
     params=(Param("k", int, 3, "neighbours for the repeated ENN noise pass", low=1),),
     reasons={"noise": "misclassified by its k nearest neighbours in the repeated ENN pass",

@@ -25,10 +25,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from curate.methods.base import MethodInfo, Param, Removals, Selection, encode
-from curate.methods.cleaning import interest_class, tomek_links
-from curate.neighbours import kneighbors
-from curate.space import Space
+from curate.methods._neighbourhood import interest_class, tomek_links
+from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
+from curate.neighbours.search import kneighbors
+from curate.settings import Param
+from curate.space.points import Space
 
 __all__ = ["OSS", "draw_rows", "one_sided_selection", "one_sided_with_draws"]
 
@@ -99,7 +100,7 @@ def one_sided_with_draws(space: Space, labels: np.ndarray, *, removable: np.ndar
     kept_c = np.flatnonzero(in_c)
     links = _links(space, labels, kept_c, removable[kept_c] & (codes[kept_c] != small))
     linked = set(kept_c[links.removed].tolist())
-    out = Removals(space.n)
+    out = SelectionBuilder(space.n)
     for gone, by, dist in redundant:
         for i, j, d in zip(gone.tolist(), by.tolist(), dist.tolist(), strict=True):
             out.add(i, "redundant",
@@ -117,7 +118,7 @@ def one_sided_with_draws(space: Space, labels: np.ndarray, *, removable: np.ndar
 def _links(space: Space, labels: np.ndarray, rows: np.ndarray, removable: np.ndarray) -> Selection:
     """Step 2: Tomek links among ``rows`` (positions in the returned Selection are into rows)."""
     if len(rows) < 2:
-        return Removals(len(rows)).selection(info={"links": 0})
+        return SelectionBuilder(len(rows)).selection(info={"links": 0})
     return tomek_links(space.subset(rows), labels[rows], removable=removable)
 
 
@@ -139,7 +140,7 @@ def one_sided_selection(space: Space, labels: np.ndarray, *, removable: np.ndarr
     names, codes = encode(labels)
     removable = np.asarray(removable, dtype=bool)
     if space.n == 0:
-        return Removals(0).selection()
+        return SelectionBuilder(0).selection()
     small = interest_class(names, codes, interest)
     return one_sided_with_draws(space, labels, removable=removable, small=small,
                                 draws=draw_rows(codes, small, removable, seed))
@@ -150,6 +151,7 @@ OSS = MethodInfo(
     reference="Kubat and Matwin 1997",
     purpose="shrink the large classes of an imbalanced set: drop rows 1-NN already labels "
             "right, then rows on Tomek links, and keep the small class whole",
+    compares_classes=True, runs_partitioned=True,
     func=one_sided_selection,
     params=(Param("interest", (str, int), "smallest", "the class kept whole: 'smallest' or "
                   "a label"),),

@@ -1,0 +1,180 @@
+"""The stage loop: run the stages in order on the rows still kept and assemble the result.
+
+Every stage goes through :func:`curate.pipeline.stage.run_step`; this module maps
+its selection to input rows, appends audit records, keeps the partition
+invariant and builds kept, removed, audit and summary. Nothing is written here
+(see :func:`curate.api.run`).
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+import polars as pl
+
+from curate.cluster.session import cluster_session
+from curate.methods import METHODS
+from curate.methods.base import Selection
+from curate.neighbours.backends import choose_backend
+from curate.pipeline.audit import AuditLog
+from curate.pipeline.records import Prepared, RunResult, StageOutcome
+from curate.pipeline.stage import check_k, removable_rows, run_stage, run_step
+from curate.pipeline.summary import build_summary
+from curate.settings import StageSettings
+from curate.space.points import Space
+
+__all__ = ["check_stages", "execute"]
+
+
+def check_stages(prep: Prepared) -> None:
+    """Check every stage's parameters against the rows that the first stage would get."""
+    for stage in prep.spec.stages:
+        removable = removable_rows(stage, prep.space_labels, prep.protected)
+        if METHODS[stage.method].uses_neighbours:
+            check_k(stage, prep.space_labels, removable)
+
+
+def _quarantine(prep: Prepared, audit: AuditLog) -> None:
+    failures = prep.failures
+    if failures.height == 0:
+        return
+    first = failures.group_by("position", maintain_order=True).agg(
+        pl.col("column").first(), pl.col("check").first(), pl.col("value").first(), pl.len())
+    first = first.sort("position")
+    details = [f"failed check {check} on column {column!r} (value {value!r})"
+               + (f" and {n - 1} more checks" if n > 1 else "")
+               for _, column, check, value, n in first.iter_rows()]
+    pos = first["position"].to_numpy().astype(np.int64)
+    audit.add(stage="schema", method="schema", positions=pos, reason=["schema"] * len(pos),
+              detail=details, neighbours=[np.zeros(0, np.int64)] * len(pos),
+              distances=[np.zeros(0)] * len(pos), kept_as=np.full(len(pos), -1), step=np.zeros(len(pos)))
+
+
+def _record(prep: Prepared, audit: AuditLog, stage: StageSettings, active: np.ndarray,
+            sel: Selection, only: np.ndarray | None = None) -> np.ndarray:
+    """Map a selection to input positions and append its audit records; return removed positions.
+
+    ``only`` limits the records to those local positions (for rows a stage was kept from removing).
+    """
+    to_input = prep.valid_positions[active]
+    pick = np.arange(len(sel.removed)) if only is None else np.flatnonzero(np.isin(sel.removed, only))
+    removed = to_input[sel.removed[pick]]
+    audit.add(stage=stage.name, method=stage.method, positions=removed,
+              reason=[sel.reason[i] for i in pick], detail=[sel.detail[i] for i in pick],
+              neighbours=[to_input[sel.neighbours[i]] for i in pick],
+              distances=[sel.distances[i] for i in pick],
+              kept_as=np.where(sel.kept_as[pick] >= 0, to_input[np.maximum(sel.kept_as[pick], 0)], -1),
+              step=sel.step[pick])
+    return removed
+
+
+def _spared(prep: Prepared, spared: AuditLog, stage: StageSettings, active: np.ndarray,
+            sub: Space, labels: np.ndarray, protected: np.ndarray) -> int:
+    """Record which protected rows the stage would have removed, had they not been protected."""
+    if len(protected) == 0:
+        return 0
+    free = run_stage(stage, sub, labels, np.zeros(0, dtype=np.int64), prep.spec.run.seed)
+    return len(_record(prep, spared, stage, active, free, only=protected))
+
+
+def execute(prep: Prepared, progress: Callable[[str], None] | None = None) -> RunResult:
+    """Run every stage on the rows still kept and assemble the result (nothing is written).
+
+    With a ``[cluster]`` address the stages run inside one Dask session that
+    closes when they end (see :mod:`curate.cluster.session`).
+    """
+    with cluster_session(prep.spec.cluster):
+        return _execute(prep, progress)
+
+
+def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResult:
+    say = progress or (lambda _msg: None)
+    started = time.perf_counter()
+    labels = prep.space_labels
+    audit = AuditLog(prep.ids, prep.labels)
+    spared = AuditLog(prep.ids, prep.labels)
+    _quarantine(prep, audit)
+    active = np.arange(prep.space.n)
+    ids_valid = prep.ids.gather(prep.valid_positions).to_list()
+    outcomes: list[StageOutcome] = []
+    scores: dict[str, np.ndarray] = {}
+    for number, stage in enumerate(prep.spec.stages, start=1):
+        say(f"stage {number}/{len(prep.spec.stages)} {stage.name!r} ({stage.method}) "
+            f"on {len(active)} rows")
+        t0 = time.perf_counter()
+        sub = prep.space.subset(active)
+        stage_labels = labels[active]
+        protected = np.flatnonzero(np.isin(active, prep.protected))
+        step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
+                        [ids_valid[a] for a in active])
+        if step.over_limit is not None:
+            raise step.over_limit
+        sel = step.selection
+        removed_input = _record(prep, audit, stage, active, sel)
+        sel.info["protected_spared"] = _spared(prep, spared, stage, active, sub, stage_labels,
+                                               protected)
+        for name, values in sel.scores.items():
+            full = scores.setdefault(name, np.full(prep.frame.height, np.nan))
+            full[prep.valid_positions[active]] = values
+        outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed_input,
+                                     time.perf_counter() - t0))
+        active = active[sel.kept]
+        say(f"  removed {len(sel.removed)} rows in {outcomes[-1].seconds:.2f} s")
+    kept_positions = prep.valid_positions[active]
+    table = audit.frame()
+    kept, removed = _split(prep, kept_positions, scores)
+    _check_outputs(prep, kept, removed, table)
+    summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
+    summary["engine"].update(_engine_facts(prep, outcomes))
+    return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
+                     spared.frame(unique_ids=False) if len(prep.protected) else None)
+
+
+def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any]:
+    """Which neighbour backend the run's space gets and, for the approximate one, its recall.
+
+    The recall is the lowest that any stage's approximate query measured for
+    itself (on a seeded sample of its queries against the exact engine), so it
+    describes the neighbours the stages actually used; nothing is searched again.
+    """
+    if not any(METHODS[s.method].uses_neighbours for s in prep.spec.stages):
+        return {}
+    backend, reason = choose_backend(prep.space)
+    engines = [o.selection.info["engine"] for o in outcomes if "engine" in o.selection.info]
+    approx = [e for e in engines if not e["exact"]]
+    if approx:
+        worst = min(approx, key=lambda e: e["recall"])
+        return {"backend": "approximate", "reason": reason, "exact": False,
+                "recall": worst["recall"], "recall_sample": sum(e["recall_sample"] for e in approx),
+                "recall_target": prep.space.engine.recall_target}
+    if backend == "approximate":
+        backend, reason = "fast", ("approximate asked for, but every neighbour was found "
+                                   "exactly: radius queries, or blocks on a cluster")
+    return {"backend": backend, "reason": reason, "exact": True, "recall": 1.0,
+            "recall_sample": 0}
+
+
+def _split(prep: Prepared, kept_positions: np.ndarray,
+           scores: dict[str, np.ndarray]) -> tuple[pl.DataFrame, pl.DataFrame]:
+    mask = np.zeros(prep.frame.height, dtype=bool)
+    mask[kept_positions] = True
+    base = prep.frame.with_columns(prep.ids) if prep.spec.input.id != "row_id" else prep.frame
+    if prep.spec.output.scores:
+        base = base.with_columns([pl.Series(name, values) for name, values in scores.items()
+                                  if name not in base.columns])
+    keep = pl.Series(mask)
+    return base.filter(keep), base.filter(~keep)
+
+
+def _check_outputs(prep: Prepared, kept: pl.DataFrame, removed: pl.DataFrame,
+                   audit: pl.DataFrame) -> None:
+    """The contract, checked before anything is written."""
+    k, r = kept["row_id"], removed["row_id"]
+    if kept.height + removed.height != prep.frame.height or pl.concat([k, r]).n_unique() != \
+            prep.frame.height:
+        raise AssertionError("kept and removed rows do not partition the input")
+    if audit.height != removed.height or not audit["row_id"].sort().equals(r.sort()):
+        raise AssertionError("the audit does not have exactly one row per removed row")

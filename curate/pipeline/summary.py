@@ -1,0 +1,119 @@
+"""summary.json: counts per stage, class and reason; timings; hashes; versions; seed."""
+
+from __future__ import annotations
+
+import functools
+import platform
+from collections import Counter
+from importlib import metadata
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import polars as pl
+
+from curate.io.read import file_sha256
+
+if TYPE_CHECKING:
+    from curate.pipeline.records import Prepared, StageOutcome
+
+__all__ = ["build_summary", "versions"]
+
+_PACKAGES = ("curate", "polars", "numpy", "scipy", "scikit-learn", "imbalanced-learn", "pandera")
+
+
+@functools.cache
+def _installed() -> tuple[tuple[str, str], ...]:
+    found = [("python", platform.python_version())]
+    for name in _PACKAGES:
+        try:
+            found.append((name, metadata.version(name)))
+        except metadata.PackageNotFoundError:
+            found.append((name, "not installed"))
+    return tuple(found)
+
+
+def versions() -> dict[str, str]:
+    """Versions of Python and of the packages that decide results.
+
+    Examples
+    --------
+    >>> "polars" in versions() and "python" in versions()
+    True
+    """
+    return dict(_installed())
+
+
+def _counts(values: np.ndarray) -> dict[str, int]:
+    names, counts = np.unique(np.asarray(values).astype(str), return_counts=True)
+    return {str(n): int(c) for n, c in zip(names, counts, strict=True)}
+
+
+def _jsonable(value: Any) -> Any:
+    if isinstance(value, dict):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    return value
+
+
+def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
+    sel = out.selection
+    ids = prep.ids
+    record: dict[str, Any] = {
+        "name": out.stage.name,
+        "method": out.stage.method,
+        "params": _jsonable(dict(out.stage.params)),
+        "classes": _jsonable(out.stage.classes),
+        "max_removed_share": out.stage.max_removed_share,
+        "rows_in": out.rows_in,
+        "removed": len(sel.removed),
+        "kept": len(sel.kept),
+        "by_reason": dict(sorted(Counter(sel.reason).items())),
+        "by_class_in": _counts(out.labels_in),
+        "by_class_removed": _counts(out.labels_in[sel.removed]),
+        "seconds": round(out.seconds, 4),
+        "info": _jsonable(sel.info),
+    }
+    if sel.groups:
+        to_input = prep.valid_positions
+        record["groups"] = [ids.gather(to_input[g]).to_list() for g in sel.groups[:1000]]
+        record["groups_listed"] = min(len(sel.groups), 1000)
+    return record
+
+
+def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept: pl.DataFrame,
+                  removed: pl.DataFrame, audit: pl.DataFrame, seconds: float) -> dict[str, Any]:
+    """Assemble the summary of one run, from the same objects the run folder is written from."""
+    spec = prep.spec
+    label = spec.input.label
+    quarantined = int((~prep.valid).sum())
+    return {
+        "rows_in": prep.frame.height,
+        "rows_kept": kept.height,
+        "rows_removed": removed.height,
+        "rows_quarantined": quarantined,
+        "by_reason": dict(sorted(Counter(audit["reason"].to_list()).items())),
+        "classes_in": _counts(prep.frame[label].cast(pl.String).fill_null("<missing>").to_numpy()),
+        "classes_kept": _counts(kept[label].cast(pl.String).fill_null("<missing>").to_numpy()),
+        "stages": [_stage_record(prep, out) for out in outcomes],
+        "input": str(spec.input.path),
+        "input_sha256": file_sha256(spec.input.path),
+        "pipeline": spec.source,
+        "pipeline_sha256": spec.sha256,
+        "seed": spec.run.seed,
+        "label": label,
+        "id": spec.input.id,
+        "features": prep.features,
+        "space": {"scale": spec.space.scale, "distance": spec.space.distance,
+                  "missing": spec.space.missing, "columns": len(prep.space.columns),
+                  "weights": _jsonable(getattr(prep.space, "weights", None) or spec.space.weights)},
+        "engine": {"requested": spec.run.engine.backend, "memory_mb": spec.run.engine.memory_mb,
+                   "cluster": spec.run.engine.cluster_address},
+        "protected": len(prep.protected),
+        "seconds": round(seconds, 4),
+        "versions": versions(),
+    }

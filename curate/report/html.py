@@ -1,0 +1,351 @@
+"""The self-contained HTML report of a run, and of an evaluation when one ran.
+
+One page, no scripts, no network: tables and base64 PNG pictures. Every number
+that also lives in ``summary.json`` (or ``evaluation.json``) is printed from
+that same dictionary and carries its key path in ``data-key`` (prefixed
+``evaluation.`` for the evaluation's) and its exact value in ``data-value``,
+so a test (or a reader's tool) can check that the page and the files agree.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Mapping, Sequence
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import polars as pl
+
+if TYPE_CHECKING:
+    from curate.pipeline.records import RunResult
+
+__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "over_limit_notes", "render_run", "table"]
+
+CAUTIONS = (
+    "Removing rows can strip genuine rare cases and minority groups: editing treats the unusual "
+    "as noise. Check what each stage removed from your smallest classes before you use the set.",
+    "Never measure accuracy on a cleaned set: curate only the training part of each split "
+    "(`curate evaluate` does this), or the scores will be inflated.",
+    "Review the audit before using a curated set in high-stakes settings, and follow the "
+    "domain's own rules on what data may be discarded.",
+)
+# Points in the projection and queries in the distance histogram; a sample beyond that.
+MAX_POINTS = 4000
+MAX_QUERIES = 2000
+
+_STYLE = """body{font-family:system-ui,sans-serif;max-width:64em;margin:2em auto;padding:0 1em;
+color:#1b1f23;line-height:1.45}h1{font-size:1.6em}h2{margin-top:1.8em;border-bottom:1px solid #ddd}
+table{border-collapse:collapse;margin:.6em 0}td,th{border:1px solid #c8ccd0;padding:.25em .6em;
+text-align:left}td.n{text-align:right;font-variant-numeric:tabular-nums}
+img{max-width:100%;height:auto}.note{color:#555;font-size:.92em}code{font-size:.92em}"""
+
+
+def _text(value: Any) -> str:
+    if isinstance(value, bool) or value is None:
+        return "yes" if value is True else "no" if value is False else "-"
+    if isinstance(value, float):
+        return "-" if np.isnan(value) else f"{value:.4g}" if abs(value) < 1e4 else f"{value:,.0f}"
+    if isinstance(value, int):
+        return f"{value:,}"
+    return str(value)
+
+
+def cell(value: Any, key: str | None = None) -> str:
+    """One table cell; with ``key``, the cell names its source and holds the exact value.
+
+    Examples
+    --------
+    >>> cell(0.123456, "results.0.accuracy")
+    '<td class="n" data-key="results.0.accuracy" data-value="0.123456">0.1235</td>'
+    >>> cell("enn")
+    '<td>enn</td>'
+    """
+    number = isinstance(value, int | float) and not isinstance(value, bool)
+    attrs = ' class="n"' if number else ""
+    if key is not None:
+        attrs += f' data-key="{html.escape(key)}" data-value="{html.escape(str(value))}"'
+    return f"<td{attrs}>{html.escape(_text(value))}</td>"
+
+
+def table(head: Sequence[str], rows: Sequence[Sequence[str]]) -> str:
+    """An HTML table from header texts and rows of ready cells (see :func:`cell`).
+
+    Examples
+    --------
+    >>> table(["a"], [[cell(1)]])
+    '<table><thead><tr><th>a</th></tr></thead><tbody><tr><td class="n">1</td></tr></tbody></table>'
+    """
+    top = "".join(f"<th>{html.escape(h)}</th>" for h in head)
+    body = "".join("<tr>" + "".join(r) + "</tr>" for r in rows)
+    return f"<table><thead><tr>{top}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def _section(ident: str, title: str, body: str) -> str:
+    return f'<section id="{ident}"><h2>{html.escape(title)}</h2>\n{body}\n</section>'
+
+
+def _image(uri: str, alt: str) -> str:
+    return f'<img src="{uri}" alt="{html.escape(alt)}">'
+
+
+def _headline(s: Mapping[str, Any]) -> str:
+    keys = ("rows_in", "rows_kept", "rows_removed", "rows_quarantined", "seconds", "seed")
+    main = table(["rows in", "kept", "removed", "quarantined", "run time (s)", "seed"],
+                 [[cell(s[k], k) for k in keys]])
+    reasons = table(["reason", "rows removed"],
+                    [[cell(r), cell(n, f"by_reason.{r}")] for r, n in s["by_reason"].items()])
+    facts = table(["", ""], [
+        [cell("input"), cell(s["input"])],
+        [cell("input sha256"), cell(s["input_sha256"])],
+        [cell("pipeline"), cell(s["pipeline"])],
+        [cell("pipeline sha256"), cell(s["pipeline_sha256"] or "(given as a dictionary)")],
+        [cell("distance"), cell(f"{s['space']['distance']}, scale {s['space']['scale']}, "
+                                f"missing values: {s['space']['missing']}")],
+        [cell("neighbour engine"), cell(_engine_text(s.get("engine", {})))],
+        [cell("versions"), cell(", ".join(f"{k} {v}" for k, v in s["versions"].items()))],
+    ])
+    return f"{main}\n<h3>Removed, by reason</h3>{reasons}\n<h3>Provenance</h3>{facts}"
+
+
+def _engine_text(engine: Mapping[str, Any]) -> str:
+    """The neighbour engine in words: backend and reason, and how exact it was.
+
+    Examples
+    --------
+    >>> _engine_text({"backend": "approximate", "reason": "asked for", "exact": False,
+    ...               "recall": 0.9912, "recall_sample": 500, "recall_target": 0.99})
+    'approximate (asked for); recall 0.991 measured on 500 sampled queries (target 0.99)'
+    """
+    if "backend" not in engine:
+        return "no stage searched for neighbours"
+    text = f"{engine['backend']} ({engine['reason']})"
+    if engine.get("exact", True):
+        return text + "; exact"
+    return (text + f"; recall {engine['recall']:.3f} measured on {engine['recall_sample']:,} "
+            f"sampled queries (target {engine.get('recall_target', 0.99)})")
+
+
+def _flow(s: Mapping[str, Any]) -> str:
+    from curate.report.plots import flow_plot
+
+    rows = []
+    for i, st in enumerate(s["stages"]):
+        reasons = ", ".join(f"{k}: {v:,}" for k, v in st["by_reason"].items()) or "nothing"
+        rows.append([cell(st["name"]), cell(st["method"]),
+                     *(cell(st[k], f"stages.{i}.{k}") for k in ("rows_in", "removed", "kept")),
+                     cell(reasons), cell(st["seconds"], f"stages.{i}.seconds")])
+    head = ["stage", "method", "rows in", "removed", "passed on", "removed by reason", "time (s)"]
+    picture = _image(flow_plot(s["stages"]), "rows entering each stage, kept and removed") \
+        if s["stages"] else ""
+    quarantine = (f'<p class="note">{s["rows_quarantined"]:,} rows failed the schema and left '
+                  "before the first stage.</p>" if s["rows_quarantined"] else "")
+    approximate = "".join(
+        f'<p class="note">Stage {html.escape(str(st["name"]))}: '
+        f'{html.escape(str(st["info"].get("note", "partitioned result")))}</p>'
+        for st in s["stages"] if st.get("info", {}).get("approximate"))
+    approximate += "".join(
+        f'<p class="note">Stage {html.escape(str(st["name"]))}: neighbours from the approximate '
+        f'engine, recall {st["info"]["engine"]["recall"]:.3f} on '
+        f'{st["info"]["engine"]["recall_sample"]:,} sampled queries; an exact run can remove '
+        "different rows.</p>"
+        for st in s["stages"] if not st.get("info", {}).get("engine", {}).get("exact", True))
+    return quarantine + table(head, rows) + approximate + picture
+
+
+def _classes(s: Mapping[str, Any]) -> str:
+    from curate.report.plots import class_balance_plot
+
+    before, after = s["classes_in"], s["classes_kept"]
+    rows = [[cell(c), cell(before[c], f"classes_in.{c}"),
+             cell(after.get(c, 0), f"classes_kept.{c}"),
+             cell(after.get(c, 0) / before[c] if before[c] else float("nan"))] for c in before]
+    return table(["class", "rows in", "rows kept", "share kept"], rows) + \
+        _image(class_balance_plot(before, after), "rows per class before and after")
+
+
+def _reasons_of_valid(result: RunResult) -> np.ndarray:
+    """Removal reason of each row of the space (valid rows), empty text for kept rows."""
+    prep = result.prepared
+    ids = prep.ids.gather(prep.valid_positions)
+    frame = pl.DataFrame({"row_id": ids}).join(result.audit.select("row_id", "reason"),
+                                               on="row_id", how="left", maintain_order="left")
+    return frame["reason"].fill_null("").to_numpy().astype(str)
+
+
+def _sample(n: int, size: int, seed: int) -> np.ndarray:
+    if n <= size:
+        return np.arange(n)
+    return np.sort(np.random.default_rng(seed).choice(n, size=size, replace=False))
+
+
+def _projection(result: RunResult) -> str:
+    from sklearn.decomposition import PCA
+
+    from curate.report.plots import projection_plot
+
+    space = result.prepared.space
+    pick = _sample(space.n, MAX_POINTS, result.summary["seed"])
+    matrix = space.matrix[pick]
+    if len(pick) < 2 or matrix.shape[1] == 0 or not np.any(matrix.std(axis=0) > 0):
+        return '<p class="note">Too few distinct rows to draw a projection.</p>'
+    pca = PCA(n_components=min(2, matrix.shape[1]), random_state=result.summary["seed"])
+    xy = pca.fit_transform(matrix)
+    if xy.shape[1] == 1:
+        xy = np.column_stack([xy[:, 0], np.zeros(len(xy))])
+    note = (f'<p class="note">Principal components of the rows as curate measures them '
+            f"({space.matrix.shape[1]} embedded dimensions, {space.metric} distance); "
+            f"{len(pick):,} of {space.n:,} rows shown"
+            + (", a seeded uniform sample" if len(pick) < space.n else "") + ".</p>")
+    return note + _image(projection_plot(xy, _reasons_of_valid(result)[pick],
+                                         pca.explained_variance_ratio_.tolist()),
+                         "two-dimensional projection with removed rows marked")
+
+
+def _radius(s: Mapping[str, Any]) -> float | None:
+    for st in s["stages"]:
+        if st["method"] == "near-duplicates" and st["params"].get("radius") is not None:
+            return float(st["params"]["radius"])
+    return None
+
+
+def _distances(result: RunResult) -> str:
+    from curate.neighbours.search import kneighbors
+    from curate.report.plots import distance_plot
+
+    space = result.prepared.space
+    if space.n < 2:
+        return '<p class="note">Fewer than two rows: no neighbours to measure.</p>'
+    pick = _sample(space.n, MAX_QUERIES, result.summary["seed"] + 1)
+    dist = kneighbors(space, 1, queries=pick)[0][:, 0]
+    radius = _radius(result.summary)
+    rows = [[cell("rows measured"), cell(len(pick))],
+            [cell("median distance"), cell(float(np.median(dist)))],
+            [cell("share at distance 0 (exact copies in the features)"),
+             cell(float(np.mean(dist == 0)))]]
+    if radius is not None:
+        rows.append([cell("share within the near-copy radius"), cell(float(np.mean(dist <= radius)))])
+    return (f'<p class="note">Distance from each row to its nearest other row in the input '
+            f"(before any stage), {len(pick):,} rows"
+            + (" sampled with a seed" if len(pick) < space.n else "") + ".</p>"
+            + table(["", ""], rows) + _image(distance_plot(dist, radius),
+                                             "histogram of nearest-neighbour distances"))
+
+
+def _detection_table(block: Mapping[str, Any], key: str) -> str:
+    head = ["stage", "removed", "of them faulty", "precision", "recall"]
+    rows = [[cell(st["stage"]), *(cell(st[m], f"{key}.stages.{i}.{m}")
+                                  for m in ("removed", "found", "precision", "recall"))]
+            for i, st in enumerate(block["stages"])]
+    every = block["all_stages"]
+    rows.append([cell("all stages"), *(cell(every[m], f"{key}.all_stages.{m}")
+                                       for m in ("removed", "found", "precision", "recall"))])
+    return table(head, rows)
+
+
+def _noise(e: Mapping[str, Any]) -> str:
+    parts = []
+    if e.get("noise"):
+        n = e["noise"]
+        towards = f" towards class {n['towards']!r}" if n["towards"] is not None else \
+            " to another class drawn uniformly"
+        parts.append(f"<h3>Injected label noise</h3><p>In every training part, a seeded "
+                     f"{n['rate']:.1%} of rows got a wrong label{html.escape(towards)} before "
+                     f"curation ({n['flipped']:,} flips over all folds). Precision: share of "
+                     "removed rows that were flipped; recall: share of flipped rows removed.</p>"
+                     + _detection_table(n, "evaluation.noise"))
+    if e.get("truth"):
+        t = e["truth"]
+        kinds = ", ".join(f"{k}: {v:,}" for k, v in t["faults"].items())
+        parts.append(f"<h3>Known faults</h3><p>Rows marked faulty in {html.escape(t['file'])} "
+                     f"({html.escape(kinds)} among the evaluated rows; each counts in every fold "
+                     "whose training part holds it). Recall per stage is against all faulty "
+                     "rows, so the stages' recalls add up.</p>" + _detection_table(t, "evaluation.truth")
+                     + table(["kind of fault", "in training parts", "removed", "recall"],
+                             [[cell(kind), *(cell(v[m], f"evaluation.truth.by_fault.{kind}.{m}")
+                                             for m in ("faulty", "found", "recall"))]
+                              for kind, v in t["by_fault"].items()]))
+    return "\n".join(parts)
+
+
+def over_limit_notes(e: Mapping[str, Any]) -> list[str]:
+    """One sentence per stage that went over its max_removed_share in some folds (shared by
+    the report and the command line's text)."""
+    total = e["folds"] * e["repeats"]
+    return [f"stage {name!r} removed more of a class than its max_removed_share in {n} of "
+            f"{total} folds: a run on such data stops there; the numbers show what it removed "
+            "anyway" for name, n in (e.get("over_limit") or {}).items()]
+
+
+def _evaluation(e: Mapping[str, Any]) -> str:
+    from curate.report.plots import accuracy_plot
+
+    intro = (f"<p>Stratified {e['folds']}-fold cross-validation, {e['repeats']} repeat(s), seed "
+             f"{e['seed']}, on {e['rows']:,} rows. The stages ran on the training part of each "
+             "fold only; test folds were never curated, and the same folds served both columns. "
+             f"p-values: {html.escape(e['test'])}.</p>")
+    facts = table(["majority-class baseline", "training rows kept", "ms per 1,000 lookups, full",
+                   "ms per 1,000 lookups, curated"],
+                  [[cell(e["baseline_accuracy"], "evaluation.baseline_accuracy"),
+                    cell(e["kept_share"], "evaluation.kept_share"),
+                    cell(e["lookup"]["full_ms_per_1000"], "evaluation.lookup.full_ms_per_1000"),
+                    cell(e["lookup"]["curated_ms_per_1000"], "evaluation.lookup.curated_ms_per_1000")]])
+    head = ["model", "k", "curated", "accuracy", "sd", "balanced accuracy", "macro F1",
+            "rows kept", "difference", "p-value"]
+    rows = [[cell(r["model"]), cell(r["k"]), cell(r["curated"]),
+             *(cell(r[m], f"evaluation.results.{i}.{m}") if m in r else cell(None)
+               for m in ("accuracy", "accuracy_std", "balanced_accuracy", "macro_f1",
+                         "kept_share", "accuracy_difference", "p_value"))]
+            for i, r in enumerate(e["results"])]
+    best = e.get("best_k") or {}
+    best_text = (f"<p>Best k by mean accuracy: {best.get('uncurated')} without curation, "
+                 f"{best.get('curated')} with curation.</p>" if best else "")
+    plot = ""
+    if any(r["k"] is not None for r in e["results"]):
+        plot = _image(accuracy_plot(e["results"], e["baseline_accuracy"]),
+                      "accuracy against k, with and without curation")
+    warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
+                       for w in over_limit_notes(e))
+    return intro + warnings + facts + table(head, rows) + best_text + plot + _noise(e)
+
+
+def _cautions() -> str:
+    return "<ul>" + "".join(f"<li>{html.escape(c)}</li>" for c in CAUTIONS) + "</ul>"
+
+
+def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -> str:
+    """Render the run's report (and the evaluation's, if given) as one self-contained HTML page.
+
+    Examples
+    --------
+    >>> import polars as pl, tempfile
+    >>> from pathlib import Path
+    >>> from curate.api import run
+    >>> folder = Path(tempfile.mkdtemp())
+    >>> pl.DataFrame({"x": [0.0, 0.1, 0.2, 5.0, 5.1, 5.1],
+    ...               "y": ["a", "a", "a", "b", "b", "b"]}).write_csv(folder / "t.csv")
+    >>> page = render_run(run({"input": {"path": "t.csv", "label": "y"},
+    ...                        "stages": [{"method": "exact-duplicates"}]}, base=folder))
+    >>> page.startswith("<!doctype html>"), 'id="cautions"' in page
+    (True, True)
+    """
+    s = result.summary
+    parts = [_section("headline", "Headline", _headline(s)),
+             _section("flow", "Stage by stage", _flow(s)),
+             _section("classes", "Class balance", _classes(s)),
+             _section("projection", "Where the removed rows lie", _projection(result)),
+             _section("distances", "Nearest-neighbour distances", _distances(result))]
+    if evaluation is not None:
+        parts.append(_section("evaluation", "Evaluation", _evaluation(evaluation)))
+    parts.append(_section("cautions", "Cautions", _cautions()))
+    title = "curate evaluation report" if evaluation is not None else "curate run report"
+    body = "\n".join(parts)
+    return f"""<!doctype html>
+<html lang="en"><head><meta charset="utf-8"><title>{title}</title>
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<style>{_STYLE}</style>
+</head><body>
+<h1>{title}</h1>
+<p class="note">Pipeline {html.escape(str(s['pipeline']))}, input {html.escape(str(s['input']))}.</p>
+{body}
+</body></html>
+"""
