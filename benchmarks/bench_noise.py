@@ -41,8 +41,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from benchmarks.common import load_note, make_data, measure, target_line  # noqa: E402
 from benchmarks.noise_tables import FLIPS, TABLES, flip, load  # noqa: E402
 from curate.methods.editing import enn  # noqa: E402
-from curate.methods.near import hardness  # noqa: E402
 from curate.methods.noise import class_thresholds, committee, ipf  # noqa: E402
+from curate.methods.scores import hardness  # noqa: E402
 from curate.space import Space  # noqa: E402
 
 Method = Callable[[Space, np.ndarray, int], tuple[np.ndarray, np.ndarray]]

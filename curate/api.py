@@ -67,7 +67,8 @@ def write_result(result: RunResult, claim: Claim, report: bool = True) -> None:
     size in memory (for the message of a full disk).
     """
     frames = [("kept.parquet", result.kept), ("removed.parquet", result.removed),
-              ("audit.parquet", result.audit), ("protected.parquet", result.spared)]
+              ("audit.parquet", result.audit), ("protected.parquet", result.spared),
+              ("flagged.parquet", result.flagged)]
     files = [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
              for name, frame in frames if frame is not None]
     files.append(OutputFile.text("summary.json",

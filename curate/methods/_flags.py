@@ -10,32 +10,15 @@ say what the stage found). Every flagged row gets one record either way.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
-from curate.methods.base import Removals, Selection
+from curate.methods.base import Selection, SelectionBuilder
 
-__all__ = ["ACTIONS", "Flags", "NoiseSelection", "describe_vote", "share"]
+__all__ = ["ACTIONS", "Flags", "describe_vote", "share"]
 
 ACTIONS = ("remove", "relabel", "report")
-
-
-@dataclass
-class NoiseSelection(Selection):
-    """A Selection with what a label-noise stage flagged beyond what it removed.
-
-    ``flagged`` holds the records of rows flagged but kept (``relabel`` and
-    ``report``), as a Selection in which they are the removed rows; it is None
-    when the action is ``remove``. ``suggested`` has one entry per row: the
-    label the stage suggests for a flagged row, None elsewhere. ``action``
-    says which of the three it was.
-    """
-
-    flagged: Selection | None = None
-    suggested: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=object))
-    action: str = "remove"
 
 
 class Flags:
@@ -51,7 +34,7 @@ class Flags:
     """
 
     def __init__(self, n: int, names: np.ndarray) -> None:
-        self.records = Removals(n)
+        self.records = SelectionBuilder(n)
         self.names = names
         self.suggested = np.full(n, None, dtype=object)
 
@@ -68,18 +51,17 @@ class Flags:
         self.suggested[position] = label.item() if isinstance(label, np.generic) else label
 
     def selection(self, action: str, info: dict[str, Any],
-                  scores: dict[str, np.ndarray] | None = None) -> NoiseSelection:
+                  scores: dict[str, np.ndarray] | None = None) -> Selection:
         """Build the stage's selection for ``action``."""
         found = self.records.selection(info=dict(info, action=action, flagged=len(self)))
         if action == "remove":
             base, flagged = found, None
         else:
-            base = Removals(self.records.n).selection(info=found.info)
+            base = SelectionBuilder(self.records.n).selection(info=found.info)
             flagged = found
-        sel = NoiseSelection(**vars(base), flagged=flagged, suggested=self.suggested,
-                             action=action)
-        sel.scores.update(scores or {})
-        return sel
+        base.flagged, base.suggested, base.action = flagged, self.suggested, action
+        base.scores.update(scores or {})
+        return base
 
 
 def share(value: float) -> str:

@@ -29,12 +29,11 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from sklearn.model_selection import StratifiedKFold
 
 from curate.errors import UsageError
 from curate.methods._members import Member, estimator
-from curate.neighbours import kneighbors
-from curate.space import Space
+from curate.neighbours.search import kneighbors
+from curate.space.points import Space
 
 __all__ = ["OutOfFold", "coordinates", "doubt", "make_folds", "member_proba", "out_of_fold",
            "sample_rows"]
@@ -106,6 +105,8 @@ each fold needs a row of every class
         raise UsageError(f"{method}: folds = {folds}, but class {str(names[c])!r} has only "
                          f"{sizes[c]} {rows} in this stage; each fold needs a row of every "
                          "class", hint=hint)
+    from sklearn.model_selection import StratifiedKFold
+
     fold = np.empty(len(codes), dtype=np.int64)
     split = StratifiedKFold(n_splits=folds, shuffle=True, random_state=seed)
     for number, (_, test) in enumerate(split.split(np.zeros((len(codes), 1)), codes)):

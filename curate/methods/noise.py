@@ -23,11 +23,12 @@ from typing import Any
 import numpy as np
 
 from curate.methods._confident import confident_joint, threshold_flags
-from curate.methods._flags import ACTIONS, Flags, NoiseSelection, describe_vote, share
+from curate.methods._flags import ACTIONS, Flags, describe_vote, share
 from curate.methods._members import DEFAULT_MODELS, describe_models, models_problem, parse_models
 from curate.methods._oof import OutOfFold, coordinates, doubt, make_folds, member_proba, out_of_fold
-from curate.methods.base import MethodInfo, Param, encode
-from curate.space import Space
+from curate.methods.base import MethodInfo, Selection, encode
+from curate.settings import Param
+from curate.space.points import Space
 
 __all__ = ["CLASS_THRESHOLDS", "COMMITTEE", "IPF", "class_thresholds", "committee",
            "confident_joint", "ipf", "threshold_flags"]  # the last two from _confident
@@ -62,7 +63,7 @@ def _info(models: Any, folds: int, scores: np.ndarray, **more: Any) -> dict[str,
             "mean_doubt": float(scores.mean()) if len(scores) else 0.0, **more}
 
 
-def _one_class(n: int, names: np.ndarray, action: str, info: dict[str, Any]) -> NoiseSelection:
+def _one_class(n: int, names: np.ndarray, action: str, info: dict[str, Any]) -> Selection:
     """One class only: no other label to suggest, nothing to doubt."""
     return Flags(n, names).selection(action, info, {"doubt": np.zeros(n)})
 
@@ -70,7 +71,7 @@ def _one_class(n: int, names: np.ndarray, action: str, info: dict[str, Any]) -> 
 def committee(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 0,
               models: Any = DEFAULT_MODELS, folds: int = 5, vote: str = "consensus",
               min_doubt: float = 0.75, fit_rows: int = FIT_ROWS,
-              action: str = "remove") -> NoiseSelection:
+              action: str = "remove") -> Selection:
     """Brodley and Friedl's ensemble filter: flag rows the out-of-fold committee gets wrong.
 
     Each member is fitted on the other folds and predicts the rows of the
@@ -130,7 +131,7 @@ def committee(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: 
 
 def class_thresholds(space: Space, labels: np.ndarray, *, removable: np.ndarray,
                      seed: int = 0, models: Any = DEFAULT_MODELS, folds: int = 5,
-                     fit_rows: int = FIT_ROWS, action: str = "remove") -> NoiseSelection:
+                     fit_rows: int = FIT_ROWS, action: str = "remove") -> Selection:
     """Per-class thresholds on out-of-fold probabilities (Northcutt, Jiang and Chuang 2021).
 
     The committee's mean out-of-fold probabilities give each class a
@@ -198,7 +199,7 @@ def _ipf_round(space: Space, X: np.ndarray, codes: np.ndarray, n_classes: int,
 def ipf(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 0,
         models: Any = ("tree",), folds: int = 5, vote: str = "majority",
         stop_share: float = 0.01, quiet_rounds: int = 3, max_rounds: int = 50,
-        action: str = "remove") -> NoiseSelection:
+        action: str = "remove") -> Selection:
     """The iterative partitioning filter (Khoshgoftaar and Rebours 2007).
 
     Each round splits the rows still in play into ``folds`` stratified parts,

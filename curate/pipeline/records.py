@@ -40,7 +40,12 @@ class Prepared:
 
 @dataclass
 class RunResult:
-    """What a run produced: kept, removed and audit tables and the summary."""
+    """What a run produced: kept, removed and audit tables and the summary.
+
+    ``spared`` records what stages would have removed of the protected rows;
+    ``flagged`` (when a label-noise stage ran) records the rows such a stage
+    flagged but kept (``action`` relabel or report), with an ``action`` column.
+    """
 
     kept: pl.DataFrame
     removed: pl.DataFrame
@@ -50,6 +55,7 @@ class RunResult:
     kept_positions: np.ndarray
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     spared: pl.DataFrame | None = None
+    flagged: pl.DataFrame | None = None
 
 
 @dataclass

@@ -23,7 +23,7 @@ from curate.neighbours.search import require_neighbours
 from curate.settings import StageSettings
 from curate.space.points import Space
 
-__all__ = ["Step", "check_k", "removable_rows", "run_stage", "run_step", "safety_breach",
+__all__ = ["Step", "check_folds", "check_k", "removable_rows", "run_stage", "run_step", "safety_breach",
            "verify_partition"]
 
 
@@ -47,6 +47,22 @@ def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarr
     return mask
 
 
+def check_folds(stage: StageSettings, labels: np.ndarray) -> None:
+    """Stop before a cross-validating stage runs when a class has fewer rows than ``folds``."""
+    folds = stage.params.get("folds")
+    if not isinstance(folds, int) or isinstance(folds, bool) or len(labels) == 0:
+        return
+    values, counts = np.unique(labels.astype(str), return_counts=True)
+    if len(values) > 1 and counts.min() < folds:
+        small = values[np.argmin(counts)]
+        raise UsageError(f"stage {stage.name!r}: folds = {folds}, but class {str(small)!r} has "
+                         f"only {counts.min()} rows in its input; each fold needs a row of "
+                         "every class",
+                         hint=f"lower folds to {counts.min()}" if counts.min() >= 2 else
+                         "a class of one row cannot be cross-validated: fix or drop that row "
+                         "first")
+
+
 def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> None:
     """Stop before the stage runs when its ``k`` does not fit the rows (and classes) it gets."""
     k = stage.params.get("k")
@@ -65,8 +81,9 @@ def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> 
 
 
 def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
-                  ids: list[Any]) -> SafetyLimitError | None:
-    """The error a run stops with when the stage removes too much of a class, else None."""
+                  ids: list[Any], verb: str = "remove") -> SafetyLimitError | None:
+    """The error a run stops with when the stage removes (or relabels) too much of a class,
+    else None."""
     if stage.max_removed_share >= 1.0 or len(removed_local) == 0:
         return None
     values, entering = np.unique(labels.astype(str), return_counts=True)
@@ -77,7 +94,7 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
         if share > stage.max_removed_share:
             rows = [ids[i] for i in removed_local if str(labels[i]) == value]
             return SafetyLimitError(
-                f"stage {stage.name!r} ({stage.method}) would remove {leaving[value]} of "
+                f"stage {stage.name!r} ({stage.method}) would {verb} {leaving[value]} of "
                 f"{total} rows of class {value!r} ({share:.0%}), over its limit "
                 f"max_removed_share = {stage.max_removed_share}; {first_ids(rows)}",
                 hint="review why (lower k, classes = \"all-but-smallest\"), or raise "
@@ -93,6 +110,7 @@ def run_stage(stage: StageSettings, space: Space, labels: np.ndarray, protected:
     removable = removable_rows(stage, labels, protected)
     if info.uses_neighbours:
         check_k(stage, labels, removable)
+    check_folds(stage, labels)
     stage_seed = stage.seed if stage.seed is not None else seed
     if space.engine.cluster_address is not None:
         return run_on_cluster(info, space, labels, removable=removable, seed=stage_seed,
@@ -135,4 +153,7 @@ def run_step(stage: StageSettings, space: Space, labels: np.ndarray, protected: 
     if calls:
         sel.info["engine"] = summarise_calls(calls)
     verify_partition(sel, space.n, stage)
+    if sel.action == "relabel" and sel.flagged is not None:
+        # Relabelling half a class is as suspect as removing it: the same limit holds.
+        return Step(sel, safety_breach(stage, labels, sel.flagged.removed, ids, "relabel"))
     return Step(sel, safety_breach(stage, labels, sel.removed, ids))

@@ -10,16 +10,18 @@ so a test (or a reader's tool) can check that the page and the files agree.
 from __future__ import annotations
 
 import html
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import polars as pl
 
+from curate.report.cells import cell, image, table
+
 if TYPE_CHECKING:
     from curate.pipeline.records import RunResult
 
-__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "over_limit_notes", "render_run", "table"]
+__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "image", "over_limit_notes", "render_run", "table"]
 
 CAUTIONS = (
     "Removing rows can strip genuine rare cases and minority groups: editing treats the unusual "
@@ -40,52 +42,8 @@ text-align:left}td.n{text-align:right;font-variant-numeric:tabular-nums}
 img{max-width:100%;height:auto}.note{color:#555;font-size:.92em}code{font-size:.92em}"""
 
 
-def _text(value: Any) -> str:
-    if isinstance(value, bool) or value is None:
-        return "yes" if value is True else "no" if value is False else "-"
-    if isinstance(value, float):
-        return "-" if np.isnan(value) else f"{value:.4g}" if abs(value) < 1e4 else f"{value:,.0f}"
-    if isinstance(value, int):
-        return f"{value:,}"
-    return str(value)
-
-
-def cell(value: Any, key: str | None = None) -> str:
-    """One table cell; with ``key``, the cell names its source and holds the exact value.
-
-    Examples
-    --------
-    >>> cell(0.123456, "results.0.accuracy")
-    '<td class="n" data-key="results.0.accuracy" data-value="0.123456">0.1235</td>'
-    >>> cell("enn")
-    '<td>enn</td>'
-    """
-    number = isinstance(value, int | float) and not isinstance(value, bool)
-    attrs = ' class="n"' if number else ""
-    if key is not None:
-        attrs += f' data-key="{html.escape(key)}" data-value="{html.escape(str(value))}"'
-    return f"<td{attrs}>{html.escape(_text(value))}</td>"
-
-
-def table(head: Sequence[str], rows: Sequence[Sequence[str]]) -> str:
-    """An HTML table from header texts and rows of ready cells (see :func:`cell`).
-
-    Examples
-    --------
-    >>> table(["a"], [[cell(1)]])
-    '<table><thead><tr><th>a</th></tr></thead><tbody><tr><td class="n">1</td></tr></tbody></table>'
-    """
-    top = "".join(f"<th>{html.escape(h)}</th>" for h in head)
-    body = "".join("<tr>" + "".join(r) + "</tr>" for r in rows)
-    return f"<table><thead><tr>{top}</tr></thead><tbody>{body}</tbody></table>"
-
-
 def _section(ident: str, title: str, body: str) -> str:
     return f'<section id="{ident}"><h2>{html.escape(title)}</h2>\n{body}\n</section>'
-
-
-def _image(uri: str, alt: str) -> str:
-    return f'<img src="{uri}" alt="{html.escape(alt)}">'
 
 
 def _headline(s: Mapping[str, Any]) -> str:
@@ -135,7 +93,7 @@ def _flow(s: Mapping[str, Any]) -> str:
                      *(cell(st[k], f"stages.{i}.{k}") for k in ("rows_in", "removed", "kept")),
                      cell(reasons), cell(st["seconds"], f"stages.{i}.seconds")])
     head = ["stage", "method", "rows in", "removed", "passed on", "removed by reason", "time (s)"]
-    picture = _image(flow_plot(s["stages"]), "rows entering each stage, kept and removed") \
+    picture = image(flow_plot(s["stages"]), "rows entering each stage, kept and removed") \
         if s["stages"] else ""
     quarantine = (f'<p class="note">{s["rows_quarantined"]:,} rows failed the schema and left '
                   "before the first stage.</p>" if s["rows_quarantined"] else "")
@@ -160,15 +118,21 @@ def _classes(s: Mapping[str, Any]) -> str:
              cell(after.get(c, 0), f"classes_kept.{c}"),
              cell(after.get(c, 0) / before[c] if before[c] else float("nan"))] for c in before]
     return table(["class", "rows in", "rows kept", "share kept"], rows) + \
-        _image(class_balance_plot(before, after), "rows per class before and after")
+        image(class_balance_plot(before, after), "rows per class before and after")
 
 
 def _reasons_of_valid(result: RunResult) -> np.ndarray:
-    """Removal reason of each row of the space (valid rows), empty text for kept rows."""
+    """Removal reason of each row of the space (valid rows), empty text for kept rows;
+    ``flagged, kept: <reason>`` for kept rows a label-noise stage flagged."""
     prep = result.prepared
     ids = prep.ids.gather(prep.valid_positions)
-    frame = pl.DataFrame({"row_id": ids}).join(result.audit.select("row_id", "reason"),
-                                               on="row_id", how="left", maintain_order="left")
+    marks = result.audit.select("row_id", "reason")
+    if result.flagged is not None and result.flagged.height:
+        flagged = result.flagged.unique("row_id", keep="last", maintain_order=True).select(
+            "row_id", ("flagged, kept: " + pl.col("reason")).alias("reason"))
+        marks = pl.concat([marks, flagged.filter(~pl.col("row_id").is_in(marks["row_id"].implode()))])
+    frame = pl.DataFrame({"row_id": ids}).join(marks, on="row_id", how="left",
+                                               maintain_order="left")
     return frame["reason"].fill_null("").to_numpy().astype(str)
 
 
@@ -196,7 +160,7 @@ def _projection(result: RunResult) -> str:
             f"({space.matrix.shape[1]} embedded dimensions, {space.metric} distance); "
             f"{len(pick):,} of {space.n:,} rows shown"
             + (", a seeded uniform sample" if len(pick) < space.n else "") + ".</p>")
-    return note + _image(projection_plot(xy, _reasons_of_valid(result)[pick],
+    return note + image(projection_plot(xy, _reasons_of_valid(result)[pick],
                                          pca.explained_variance_ratio_.tolist()),
                          "two-dimensional projection with removed rows marked")
 
@@ -227,7 +191,7 @@ def _distances(result: RunResult) -> str:
     return (f'<p class="note">Distance from each row to its nearest other row in the input '
             f"(before any stage), {len(pick):,} rows"
             + (" sampled with a seed" if len(pick) < space.n else "") + ".</p>"
-            + table(["", ""], rows) + _image(distance_plot(dist, radius),
+            + table(["", ""], rows) + image(distance_plot(dist, radius),
                                              "histogram of nearest-neighbour distances"))
 
 
@@ -301,7 +265,7 @@ def _evaluation(e: Mapping[str, Any]) -> str:
                  f"{best.get('curated')} with curation.</p>" if best else "")
     plot = ""
     if any(r["k"] is not None for r in e["results"]):
-        plot = _image(accuracy_plot(e["results"], e["baseline_accuracy"]),
+        plot = image(accuracy_plot(e["results"], e["baseline_accuracy"]),
                       "accuracy against k, with and without curation")
     warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
                        for w in over_limit_notes(e))
@@ -329,11 +293,16 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
     (True, True)
     """
     s = result.summary
+    from curate.report.doubt import doubt_section
+
     parts = [_section("headline", "Headline", _headline(s)),
              _section("flow", "Stage by stage", _flow(s)),
              _section("classes", "Class balance", _classes(s)),
              _section("projection", "Where the removed rows lie", _projection(result)),
              _section("distances", "Nearest-neighbour distances", _distances(result))]
+    doubt = doubt_section(result)
+    if doubt:
+        parts.insert(4, _section("doubt", "Doubt about labels", doubt))
     if evaluation is not None:
         parts.append(_section("evaluation", "Evaluation", _evaluation(evaluation)))
     parts.append(_section("cautions", "Cautions", _cautions()))

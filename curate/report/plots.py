@@ -18,7 +18,7 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-__all__ = ["accuracy_plot", "class_balance_plot", "distance_plot", "flow_plot",
+__all__ = ["accuracy_plot", "class_balance_plot", "distance_plot", "doubt_plot", "flow_plot",
            "projection_plot"]
 
 _KEPT = "#9aa5b1"
@@ -111,12 +111,38 @@ def projection_plot(xy: np.ndarray, reasons: np.ndarray, explained: Sequence[flo
     colour = _colour(names)
     for reason in names:
         at = reasons == reason
+        if reason.startswith("flagged"):  # kept rows a label-noise stage flagged
+            ax.scatter(xy[at, 0], xy[at, 1], s=16, facecolors="none", edgecolors=colour[reason],
+                       linewidths=0.8, label=reason)
+            continue
         ax.scatter(xy[at, 0], xy[at, 1], s=12, c=colour[reason], marker="x", linewidths=0.8,
                    label=f"removed: {reason}")
     ax.set_xlabel(f"first component ({explained[0]:.0%} of variance)")
     ax.set_ylabel(f"second component ({explained[1]:.0%} of variance)"
                   if len(explained) > 1 else "(one dimension only)")
     ax.legend(fontsize="small", frameon=False, markerscale=1.5)
+    return _uri(fig)
+
+
+def doubt_plot(groups: Mapping[str, np.ndarray]) -> str:
+    """Stacked histogram of the doubt score on [0, 1], one colour per group of rows.
+
+    Examples
+    --------
+    >>> doubt_plot({"kept": np.array([0.1, 0.2]), "removed": np.array([0.9])})[:5]
+    'data:'
+    """
+    fig = _figure(7.0, 3.0)
+    ax = fig.add_subplot()
+    names = [name for name, values in groups.items() if len(values)]
+    colours = [_KEPT if name == "kept" else _COLOURS[i % len(_COLOURS)]
+               for i, name in enumerate(names)]
+    if names:
+        ax.hist([groups[n] for n in names], bins=np.linspace(0, 1, 41).tolist(), stacked=True,
+                color=colours, label=names)
+        ax.legend(frameon=False)
+    ax.set_xlabel("doubt (1 - out-of-fold probability of the row's own label)")
+    ax.set_ylabel("rows")
     return _uri(fig)
 
 

@@ -17,8 +17,8 @@ shipped in a package), range-normalised, with 10% of labels flipped (seeded).
 from __future__ import annotations
 
 import numpy as np
+import open_data
 import pytest
-from sklearn.datasets import load_breast_cancer, load_iris, load_wine
 from sklearn.linear_model import LogisticRegression
 from sklearn.model_selection import StratifiedKFold, cross_val_predict
 from sklearn.neighbors import KNeighborsClassifier
@@ -28,11 +28,9 @@ from sklearn.tree import DecisionTreeClassifier
 from curate.methods.noise import committee
 from curate.space import Space
 
-LOADERS = {"wine": load_wine, "breast_cancer": load_breast_cancer, "iris": load_iris}
-
 
 def noisy(name: str, seed: int = 0, rate: float = 0.1) -> tuple[np.ndarray, np.ndarray]:
-    X, y = LOADERS[name](return_X_y=True)
+    X, y = open_data.load(name)
     y = np.asarray(y).copy()
     rng = np.random.default_rng(seed)
     chosen = rng.choice(len(y), int(rate * len(y)), replace=False)

@@ -15,8 +15,8 @@ in a package), range-normalised, with 20% of labels flipped (seeded).
 from __future__ import annotations
 
 import numpy as np
+import open_data
 import pytest
-from sklearn.datasets import load_breast_cancer, load_wine
 from sklearn.model_selection import StratifiedKFold
 from sklearn.preprocessing import MinMaxScaler
 from sklearn.tree import DecisionTreeClassifier
@@ -24,11 +24,9 @@ from sklearn.tree import DecisionTreeClassifier
 from curate.methods.noise import ipf
 from curate.space import Space
 
-LOADERS = {"wine": load_wine, "breast_cancer": load_breast_cancer}
-
 
 def noisy(name: str, seed: int) -> tuple[np.ndarray, np.ndarray]:
-    X, y = LOADERS[name](return_X_y=True)
+    X, y = open_data.load(name)
     y = np.asarray(y).copy()
     rng = np.random.default_rng(seed)
     chosen = rng.choice(len(y), int(0.2 * len(y)), replace=False)

@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 
 from curate.errors import UsageError
-from curate.methods.base import check_params
 from curate.methods.noise import CLASS_THRESHOLDS, COMMITTEE, IPF, committee
+from curate.settings import check_params
 from curate.space import Space
 
 INFOS = [COMMITTEE, IPF, CLASS_THRESHOLDS]

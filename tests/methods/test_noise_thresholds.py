@@ -17,7 +17,7 @@ prune-by-class order.
 from __future__ import annotations
 
 import numpy as np
-from sklearn.datasets import load_wine
+import open_data
 from sklearn.linear_model import LogisticRegression
 from sklearn.model_selection import StratifiedKFold, cross_val_predict
 from sklearn.preprocessing import MinMaxScaler
@@ -66,7 +66,7 @@ def test_rows_that_may_not_be_removed_are_passed_over() -> None:
 def test_the_stage_applies_the_rule_to_scikit_learns_out_of_fold_probabilities() -> None:
     """End to end on wine with flipped labels: the stage's flags are the rule applied to
     cross_val_predict's probabilities (logistic regression, same folds)."""
-    X, y = load_wine(return_X_y=True)
+    X, y = open_data.load("wine")
     X = MinMaxScaler().fit_transform(X)
     y = y.copy()
     rng = np.random.default_rng(0)

@@ -11,8 +11,8 @@ neighbour ties cannot differ between the two implementations.
 from __future__ import annotations
 
 import numpy as np
+import open_data
 import pytest
-from sklearn.datasets import load_breast_cancer, load_wine
 from sklearn.ensemble import RandomForestClassifier
 from sklearn.linear_model import LogisticRegression
 from sklearn.model_selection import StratifiedKFold, cross_val_predict
@@ -24,11 +24,9 @@ from curate.methods._members import parse_models
 from curate.methods._oof import doubt, make_folds, out_of_fold
 from curate.space import Space
 
-LOADERS = {"wine": load_wine, "breast_cancer": load_breast_cancer}
-
 
 def table(name: str) -> tuple[np.ndarray, np.ndarray]:
-    X, y = LOADERS[name](return_X_y=True)
+    X, y = open_data.load(name)
     return MinMaxScaler().fit_transform(X), np.asarray(y)
 
 
