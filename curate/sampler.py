@@ -260,7 +260,8 @@ def _audit(info: MethodInfo, sel: Any, labels: np.ndarray) -> pl.DataFrame:
                            pl.Series("label", labels))
     builder.add(stage=info.key, method=info.key, positions=sel.removed, reason=sel.reason,
                 detail=sel.detail, neighbours=sel.neighbours, distances=sel.distances,
-                kept_as=sel.kept_as, step=sel.step)
+                kept_as=sel.kept_as, step=sel.step,
+                suggested=None if sel.suggested is None else sel.suggested[sel.removed])
     return builder.frame()
 
 

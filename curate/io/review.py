@@ -69,9 +69,12 @@ def review_table(run: str | Path) -> pl.DataFrame:
                      pl.read_parquet(folder / "removed.parquet").drop(ours))
     if (folder / "flagged.parquet").is_file():
         flagged = pl.read_parquet(folder / "flagged.parquet")
-        extra = _records(flagged.drop("action"), flagged["action"],
-                         pl.read_parquet(folder / "kept.parquet").drop(ours))
+        rows = pl.concat([pl.read_parquet(folder / name).drop(ours)
+                          for name in ("kept.parquet", "removed.parquet")])
+        extra = _records(flagged.drop("action"), flagged["action"], rows)
         table = pl.concat([table, extra], how="diagonal_relaxed")
+    # Rows no label-noise stage scored have NaN: they go last, like missing values.
+    table = table.with_columns(pl.col("doubt").fill_nan(None))
     if table["doubt"].is_not_null().any():
         table = table.sort("doubt", descending=True, nulls_last=True, maintain_order=True)
     return table

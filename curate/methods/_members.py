@@ -122,13 +122,14 @@ def models_problem(value: Any) -> str | None:
     --------
     >>> models_problem(["knn", "trees"]) is None
     True
-    >>> models_problem(["no.such.Model"]).splitlines()[0]
-    "models[1]: 'no.such.Model' does not import (no module named 'no')"
+    >>> models_problem(["no.such.Model"])
+    "models[1]: 'no.such.Model' does not import (no module named 'no'); check the spelling, \
+and that the package is installed in curate's environment"
     """
     try:
         parse_models(value)
     except UsageError as err:
-        return str(err)
+        return f"{err.message}; {err.hint}" if err.hint else err.message
     return None
 
 

@@ -274,7 +274,7 @@ _MODELS = Param("models", (list, tuple), DEFAULT_MODELS,
                 "the committee: 'knn' (k-NN in curate's space), 'trees' (random forest), "
                 "'linear' (logistic regression), 'tree' (one decision tree), an import path "
                 "of a classifier with predict_proba, or { model = ..., params = { ... } }",
-                check=lambda v: models_problem(v) is None,
+                check=lambda v: models_problem(v) is None, explain=models_problem,
                 check_says="each a built-in name, an importable classifier with "
                            "predict_proba, or a table with model and params")
 _FOLDS = Param("folds", int, 5, "stratified folds; each member is fitted on all but one",
@@ -310,8 +310,8 @@ IPF = MethodInfo(
     purpose="flag likely mislabels in rounds: models fitted on one part each vote on every "
             "row, until rounds stop finding many",
     func=ipf,
-    params=(Param("models", list, ["tree"], _MODELS.doc, check=_MODELS.check,
-                  check_says=_MODELS.check_says),
+    params=(Param("models", (list, tuple), ("tree",), _MODELS.doc, check=_MODELS.check,
+                  check_says=_MODELS.check_says, explain=models_problem),
             Param("folds", int, 5, "parts per round; each model is fitted on one part", low=2),
             _VOTE,
             Param("stop_share", float, 0.01, "a round is quiet when it flags fewer than this "
