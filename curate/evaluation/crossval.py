@@ -210,7 +210,7 @@ def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], 
     values, counts = np.unique(prep.space_labels.astype(str), return_counts=True)
     if counts.min() < folds:
         small = values[np.argmin(counts)]
-        raise UsageError(f"{prep.spec.input.path}: class {small!r} has {counts.min()} rows, fewer "
+        raise UsageError(f"{prep.spec.input.path}: class {str(small)!r} has {counts.min()} rows, fewer "
                          f"than the {folds} folds, so some test folds would lack it",
                          hint=f"use --folds {max(2, int(counts.min()))} or fewer"
                               if counts.min() >= 2 else "give that class more rows")

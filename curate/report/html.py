@@ -267,9 +267,11 @@ def _evaluation(e: Mapping[str, Any]) -> str:
     if any(r["k"] is not None for r in e["results"]):
         plot = image(accuracy_plot(e["results"], e["baseline_accuracy"]),
                       "accuracy against k, with and without curation")
+    from curate.report.ranking import ranking_html
+
     warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
                        for w in over_limit_notes(e))
-    return intro + warnings + facts + table(head, rows) + best_text + plot + _noise(e)
+    return intro + ranking_html(e) + warnings + facts + table(head, rows) + best_text + plot + _noise(e)
 
 
 def _cautions() -> str:
