@@ -52,7 +52,7 @@ def test_one_round_is_the_partition_filter(name, vote) -> None:
     wrong = partition_votes(X, y, 5, seed=6)
     expected = wrong > 2.5 if vote == "majority" else wrong == 5
     sel = ipf(Space.from_matrix(X), y, removable=np.ones(len(y), bool), seed=6, folds=5,
-              vote=vote, max_rounds=1)
+              vote=vote, max_rounds=1, models=["tree"])
     assert sel.removed.tolist() == np.flatnonzero(expected).tolist()
     assert set(sel.step.tolist()) <= {1}
 
@@ -61,7 +61,7 @@ def test_one_round_is_the_partition_filter(name, vote) -> None:
 def test_stops_after_the_papers_quiet_rounds(stop_share, quiet_rounds) -> None:
     X, y = noisy("breast_cancer", seed=2)
     sel = ipf(Space.from_matrix(X), y, removable=np.ones(len(y), bool), seed=0,
-              stop_share=stop_share, quiet_rounds=quiet_rounds, max_rounds=50)
+              stop_share=stop_share, quiet_rounds=quiet_rounds, max_rounds=50, models=["tree"])
     rounds = sel.info["rounds"]
     per_round = np.bincount(sel.step, minlength=rounds + 1)[1:]
     quiet = per_round < stop_share * len(y)
@@ -82,5 +82,6 @@ def test_doubt_comes_from_models_that_did_not_see_the_row() -> None:
                                       random_state=0).fit(X[part], y[part])
         outside = np.setdiff1d(np.arange(len(y)), part)
         total[outside] += tree.predict_proba(X[outside])[np.arange(len(outside)), y[outside]]
-    sel = ipf(Space.from_matrix(X), y, removable=np.ones(len(y), bool), seed=0, max_rounds=1)
+    sel = ipf(Space.from_matrix(X), y, removable=np.ones(len(y), bool), seed=0, max_rounds=1,
+              models=["tree"])
     np.testing.assert_allclose(sel.scores["doubt"], 1 - total / 4, atol=1e-12)
