@@ -127,3 +127,8 @@ def test_sampler_scores_doubt(noisy_wine):
     assert sampler.scores_["doubt"].shape == (len(X),)
     assert len(kept) == len(X) - sampler.audit_.height
     assert sampler.audit_["suggested_label"].is_not_null().all()
+    relabel = Sampler(method="committee", models=LINEAR, action="relabel")
+    kept, labels = relabel.fit_resample(X, noisy_wine["y"].to_numpy())
+    assert len(kept) == len(X) and list(labels) == noisy_wine["y"].to_list()
+    flagged = [i for i, s in enumerate(relabel.suggested_labels_) if s is not None]
+    assert flagged == sorted(sampler.audit_["row_id"].to_list())
