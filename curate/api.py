@@ -90,7 +90,8 @@ def write_result(result: RunResult, claim: Claim, report: bool = True,
     files = selection_files(result)
     files += [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
               for name, frame in (("audit.parquet", result.audit),
-                                  ("protected.parquet", result.spared)) if frame is not None]
+                                  ("protected.parquet", result.spared),
+                                  ("flagged.parquet", result.flagged)) if frame is not None]
     files.append(OutputFile.text("summary.json",
                                  json.dumps(result.summary, indent=2, default=str) + "\n"))
     if report:

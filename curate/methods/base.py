@@ -95,6 +95,11 @@ class Selection:
     parallel to ``removed``. ``kept_as`` is -1 where no kept row stands for the
     removed one; ``step`` is 1 for methods that do not iterate. ``info`` carries
     method-level facts for the summary (JSON-serialisable).
+
+    Label-noise methods may flag rows without removing them: ``action`` is
+    ``"relabel"`` or ``"report"`` and ``flagged`` holds their records (a
+    Selection in which they are the removed rows). ``suggested`` has one
+    entry per row, the label a method suggests for it, None elsewhere.
     """
 
     kept: np.ndarray
@@ -108,6 +113,9 @@ class Selection:
     info: dict[str, Any] = field(default_factory=dict)
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     groups: list[np.ndarray] = field(default_factory=list)
+    flagged: Selection | None = None
+    suggested: np.ndarray | None = None
+    action: str = "remove"
 
     @property
     def n(self) -> int:
