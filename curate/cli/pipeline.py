@@ -28,8 +28,8 @@ def _check_options(args: argparse.Namespace) -> None:
     memory = getattr(args, "memory_mb", None)
     if memory is not None and memory < MIN_MEMORY_MB:
         raise UsageError(f"--memory-mb {memory} is below the minimum of {MIN_MEMORY_MB} megabytes",
-                         hint=f"give --memory-mb {MIN_MEMORY_MB} or more (default: [run] "
-                              "memory_mb, else 1024)")
+                         hint=f"give at least {MIN_MEMORY_MB} (megabytes); the default is [run] "
+                              "memory_mb, else 1024")
     backend = getattr(args, "backend", None)
     if backend is not None and canonical(backend, BACKENDS) is None:
         raise UsageError(f"--backend {backend} is not a neighbour engine" + suggest(backend,
