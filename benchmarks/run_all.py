@@ -25,7 +25,8 @@ QUICK_ROWS = 20_000
 # imbalanced-learn's quadratic CNN (about 270 s at 20,000 rows), so it gets less.
 QUICK_ARGS = {"bench_cnn": ["--rows", "2000", "--large", str(QUICK_ROWS)],
               "bench_noise": ["--rows", str(QUICK_ROWS), "--tables", "iris,glass", "--seeds", "1",
-                              "--flips", "uniform-10"]}
+                              "--flips", "uniform-10"],
+              "bench_update": ["--rows", str(QUICK_ROWS), "--new", str(QUICK_ROWS // 10)]}
 
 
 def scripts(only: list[str] | None) -> list[Path]:

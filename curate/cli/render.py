@@ -40,6 +40,42 @@ def summary_text(summary: dict[str, Any], out: Path, seconds: float | None = Non
     return "\n".join(lines)
 
 
+def update_text(facts: Mapping[str, Any]) -> str:
+    """How an update went: new rows, the fitted ranges, and per stage its mode and why.
+
+    Examples
+    --------
+    >>> print(update_text({"new_rows": 5, "old_rows": 95, "refit": False,
+    ...     "rows_outside_fitted_ranges": 1, "equals_full_run": True, "stages": [
+    ...     {"name": "m", "method": "enn", "mode": "incremental", "old_rows_rejudged": 4,
+    ...      "rejudged_because": {"a new row entered its list": 4},
+    ...      "equals_full_run": True}]}))
+    update: 5 new rows added to 95; 1 new rows lie outside the run's fitted ranges
+      m (enn): incremental, 4 old rows judged again (a new row entered its list 4); equals a full run
+    the result equals a full run on old and new rows
+    """
+    head = f"update: {facts['new_rows']} new rows added to {facts['old_rows']}"
+    if facts.get("refit"):
+        head += "; space refitted (a full run)"
+    else:
+        head += (f"; {facts['rows_outside_fitted_ranges']} new rows lie outside the run's "
+                 "fitted ranges")
+    lines = [head]
+    for st in facts["stages"]:
+        line = f"  {st['name']} ({st['method']}): {st['mode']}"
+        if "why" in st:
+            line += f" ({st['why']})"
+        if "old_rows_rejudged" in st:
+            why = ", ".join(f"{k} {v}" for k, v in st.get("rejudged_because", {}).items() if v)
+            line += f", {st['old_rows_rejudged']} old rows judged again" + (f" ({why})" if why
+                                                                              else "")
+        line += "; equals a full run" if st["equals_full_run"] else "; may differ from a full run"
+        lines.append(line)
+    lines.append("the result equals a full run on old and new rows" if facts["equals_full_run"]
+                 else "the result may differ from a full run on old and new rows (see above)")
+    return "\n".join(lines)
+
+
 def _rounded(value: float | None) -> str:
     return "-" if value is None else f"{value:.3g}"
 

@@ -20,6 +20,7 @@ from curate.errors import UsageError, counted
 from curate.methods import METHODS
 from curate.methods.base import Selection
 from curate.neighbours.backends import choose_backend
+from curate.neighbours.lists import sharing_lists
 from curate.pipeline.audit import AuditLog
 from curate.pipeline.records import SUGGESTED, Prepared, RunResult, StageOutcome
 from curate.pipeline.stage import check_folds, check_k, removable_rows, run_stage, run_step
@@ -130,20 +131,24 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         sub = prep.space.subset(active)
         stage_labels = labels[active]
         protected = np.flatnonzero(np.isin(active, prep.protected))
-        step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
-                        [ids_valid[a] for a in active])
-        if step.over_limit is not None:
-            raise step.over_limit
-        sel = step.selection
+        with sharing_lists(sub.matrix) as lists:
+            step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
+                            [ids_valid[a] for a in active])
+            if step.over_limit is not None:
+                raise step.over_limit
+            sel = step.selection
+            # the lists the stage searched serve its run without protection too
+            spared_count = _spared(prep, spared, stage, active, sub, stage_labels, protected)
         removed_input = _record(prep, audit, stage, active, sel, suggested=sel.suggested)
         _record_flags(prep, flags, actions, relabel, stage, active, sel)
-        sel.info["protected_spared"] = _spared(prep, spared, stage, active, sub, stage_labels,
-                                               protected)
+        sel.info["protected_spared"] = spared_count
         for name, values in sel.scores.items():
             full = scores.setdefault(name, np.full(prep.frame.height, np.nan))
             full[prep.valid_positions[active]] = values
         outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed_input,
-                                     time.perf_counter() - t0))
+                                     time.perf_counter() - t0, prep.valid_positions[active],
+                                     lists.pair() if METHODS[stage.method].judged_by_lists
+                                     else None))
         active = active[sel.kept]
         say(f"  removed {counted(len(sel.removed), 'row')} in {outcomes[-1].seconds:.2f} s")
     kept_positions = prep.valid_positions[active]
@@ -160,7 +165,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
                      spared.frame(unique_ids=False) if len(prep.protected) else None,
                      flagged if any(s.params.get("action") in ("relabel", "report")
                                     for s in prep.spec.stages) else None,
-                     relabel if _relabels(prep) else None)
+                     relabel if _relabels(prep) else None, outcomes)
 
 
 def _relabels(prep: Prepared) -> bool:

@@ -14,18 +14,23 @@ from curate.methods import METHODS
 from curate.pipeline.records import Prepared
 from curate.settings import Spec
 from curate.space.build import build_space
+from curate.space.labels import encode_labels
 
-__all__ = ["prepare"]
+__all__ = ["prepare", "prepare_frame"]
 
 
 def _labels_of_valid(frame: pl.DataFrame, label: str) -> np.ndarray:
     values = frame[label]
+    if values.dtype in (pl.Categorical, pl.String) and values.null_count() == 0:
+        # fixed-width text, not Python objects: every later count or comparison of the
+        # labels runs in compiled loops (on a million rows, seconds each as objects)
+        return values.cast(pl.String).to_numpy().astype(str)
     return values.cast(pl.String).to_numpy() if values.dtype == pl.Categorical else values.to_numpy()
 
 
 def _check_classes(spec: Spec, labels: np.ndarray) -> None:
     needs_two = [s for s in spec.stages if METHODS[s.method].compares_classes]
-    distinct = np.unique(labels)
+    distinct = encode_labels(labels)[0]
     if needs_two and len(distinct) < 2:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} has one class "
                          f"only ({quoted(distinct[0])}); stage {needs_two[0].name!r} compares classes",
@@ -50,7 +55,12 @@ def _protected_positions(spec: Spec, ids: pl.Series) -> np.ndarray:
 
 def prepare(spec: Spec) -> Prepared:
     """Read, identify and validate the input and build its space, without selecting anything."""
-    frame = read_input(spec.input.path)
+    return prepare_frame(spec, read_input(spec.input.path))
+
+
+def prepare_frame(spec: Spec, frame: pl.DataFrame, fit: np.ndarray | None = None) -> Prepared:
+    """Identify and validate ``frame`` and build its space (fitted on the ``fit`` input rows,
+    a boolean mask over ``frame``, when given: an update keeps its run's fitted space)."""
     if spec.input.label not in frame.columns:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} is not in the "
                          f"input (columns: {', '.join(frame.columns[:12])})",
@@ -67,10 +77,11 @@ def prepare(spec: Spec) -> Prepared:
     labels = _labels_of_valid(checked, spec.input.label)
     _check_classes(spec, labels)
     valid_ids = ids.filter(pl.Series(validation.valid)).to_list()
-    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=labels)
+    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=labels,
+                        fit_rows=None if fit is None else fit[validation.valid])
     protected_input = _protected_positions(spec, ids)
     local = np.full(frame.height, -1, dtype=np.int64)
     local[np.flatnonzero(validation.valid)] = np.arange(int(validation.valid.sum()))
     return Prepared(spec, frame, ids, frame[spec.input.label], validation.valid,
                     validation.failures, features, kinds, space, labels,
-                    local[protected_input][local[protected_input] >= 0], checked)
+                    local[protected_input][local[protected_input] >= 0], checked, fit)

@@ -34,6 +34,7 @@ class Prepared:
     space_labels: np.ndarray
     protected: np.ndarray
     checked: pl.DataFrame
+    fit: np.ndarray | None = None
 
     @property
     def valid_positions(self) -> np.ndarray:
@@ -66,6 +67,7 @@ class RunResult:
     spared: pl.DataFrame | None = None
     flagged: pl.DataFrame | None = None
     relabel: np.ndarray | None = None
+    outcomes: list[StageOutcome] = field(default_factory=list)
 
     @property
     def kept_mask(self) -> np.ndarray:
@@ -99,7 +101,8 @@ class RunResult:
 
 @dataclass
 class StageOutcome:
-    """One stage's facts for the summary."""
+    """One stage's facts for the summary; ``rows`` are the input positions of the rows that
+    reached it, ``lists`` the whole-stage neighbour lists its method searched, if any."""
 
     stage: StageSettings
     rows_in: int
@@ -107,3 +110,5 @@ class StageOutcome:
     selection: Selection
     removed_input: np.ndarray
     seconds: float
+    rows: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    lists: tuple[np.ndarray, np.ndarray] | None = None

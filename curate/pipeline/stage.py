@@ -21,6 +21,7 @@ from curate.methods.base import Selection
 from curate.neighbours.calls import recording, summarise_calls
 from curate.neighbours.search import require_neighbours
 from curate.settings import StageSettings
+from curate.space.labels import class_sizes, encode_labels
 from curate.space.points import Space
 
 __all__ = ["Step", "check_folds", "check_k", "looks_continuous", "removable_rows", "run_stage",
@@ -28,22 +29,26 @@ __all__ = ["Step", "check_folds", "check_k", "looks_continuous", "removable_rows
 
 
 def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:
-    """Rows the stage may remove: of the classes it names, and not protected."""
-    text = labels.astype(str)
+    """Rows the stage may remove: of the classes it names (compared as text), not protected."""
     if stage.classes == "all":
         mask = np.ones(len(labels), dtype=bool)
-    elif stage.classes == "all-but-smallest":
-        values, counts = np.unique(text, return_counts=True)
-        smallest = values[np.lexsort((values, counts))[0]] if len(values) > 1 else None
-        mask = text != smallest
     else:
-        wanted = [str(c) for c in stage.classes]
-        unknown = sorted(set(wanted) - set(text))
-        if unknown:
-            raise UsageError(f"stage {stage.name!r}: classes {', '.join(map(quoted, unknown))} "
-                             "do not occur in its input",
-                             hint=f"use labels that occur: {', '.join(sorted(set(text))[:10])}")
-        mask = np.isin(text, wanted)
+        names, codes = encode_labels(labels)
+        text = np.asarray(names).astype(str)
+        if stage.classes == "all-but-smallest":
+            values, counts = class_sizes(labels)
+            smallest = values[np.lexsort((values, counts))[0]] if len(values) > 1 else None
+            chosen = text != smallest
+        else:
+            wanted = [str(c) for c in stage.classes]
+            unknown = sorted(set(wanted) - set(text.tolist()))
+            if unknown:
+                raise UsageError(f"stage {stage.name!r}: classes {', '.join(map(quoted, unknown))} "
+                                 "do not occur in its input",
+                                 hint="use labels that occur: "
+                                      f"{', '.join(sorted(set(text.tolist()))[:10])}")
+            chosen = np.isin(text, wanted)
+        mask = chosen[codes]
     mask[protected] = False
     return mask
 

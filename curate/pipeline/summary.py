@@ -13,6 +13,7 @@ import numpy as np
 import polars as pl
 
 from curate.io.read import file_sha256
+from curate.space.labels import class_sizes
 
 if TYPE_CHECKING:
     from curate.pipeline.records import Prepared, StageOutcome
@@ -47,7 +48,7 @@ def versions() -> dict[str, str]:
 
 
 def _counts(values: np.ndarray) -> dict[str, int]:
-    names, counts = np.unique(np.asarray(values).astype(str), return_counts=True)
+    names, counts = class_sizes(np.asarray(values))
     return {str(n): int(c) for n, c in zip(names, counts, strict=True)}
 
 
