@@ -26,7 +26,7 @@ __all__ = ["run", "selection_files", "update", "write_result"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path,
-             trust_code: Iterable[str | Path]) -> Spec:
+             trust_code: Iterable[str | Path] = ()) -> Spec:
     if isinstance(pipeline, Spec):
         return pipeline
     if isinstance(pipeline, Mapping):
@@ -81,7 +81,8 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
 def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
            new: str | Path, out: str | Path | None = None, overwrite: bool | None = None,
            refit: bool = False, write: bool = False, base: str | Path = ".",
-           progress: Callable[[str], None] | None = None) -> RunResult:
+           progress: Callable[[str], None] | None = None, started: float | None = None,
+           trust_code: Iterable[str | Path] = ()) -> RunResult:
     """Add the rows of ``new`` to the run folder ``run`` and return the updated run.
 
     ``pipeline`` is the run's pipeline (file, dictionary or checked settings;
@@ -106,7 +107,8 @@ def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
     >>> result.audit["row_id"].to_list(), result.summary["update"]["equals_full_run"]
     ([6], True)
     """
-    spec = _as_spec(pipeline, base, ())
+    started = time.perf_counter() if started is None else started
+    spec = _as_spec(pipeline, base, trust_code)
     if not write and out is None:
         return update_run(spec, Path(run), Path(new), refit=refit, progress=progress)
     inputs = [*spec_inputs(spec), ("the run folder", Path(run)), ("the new rows", Path(new))]
@@ -114,7 +116,7 @@ def update(pipeline: str | Path | Mapping[str, Any] | Spec, *, run: str | Path,
                       overwrite=spec.output.overwrite if overwrite is None else overwrite,
                       inputs=inputs) as claim:
         result = update_run(spec, Path(run), Path(new), refit=refit, progress=progress)
-        write_result(result, claim, report=spec.output.report)
+        write_result(result, claim, report=spec.output.report, started=started)
     return result
 
 

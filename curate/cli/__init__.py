@@ -41,7 +41,6 @@ def _parser() -> argparse.ArgumentParser:
     demo.add_commands(sub)
     evaluate.add_commands(sub)
     review.add_commands(sub)
-    update.add_commands(sub)
     return parser
 
 

@@ -39,9 +39,12 @@ def cmd_update(args: argparse.Namespace) -> int:
 
 def add_commands(sub: Any) -> None:
     """Add ``update`` to the CLI's subparsers."""
+    from curate.cli.pipeline import add_trust_option
+
     p = sub.add_parser("update", help="add new rows to a run folder without recomputing "
                        "everything, and write the updated run folder")
     p.add_argument("pipeline", help="the pipeline file the run used")
+    add_trust_option(p)
     p.add_argument("--run", required=True, metavar="DIR", help="the run folder to start from "
                    "(only read)")
     p.add_argument("--new", required=True, metavar="FILE", help="the new rows: a CSV or "
