@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import functools
 import json
-from collections.abc import Callable, Mapping
+import time
+from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
+from curate.io.batches import batch_rows, write_rows
 from curate.io.output_checks import spec_inputs
 from curate.io.outputs import Claim, OutputFile, claim_output
 from curate.pipeline.loop import execute
@@ -16,20 +19,22 @@ from curate.report.html import render_run
 from curate.settings import Spec
 from curate.spec import load_spec, spec_from_dict
 
-__all__ = ["run", "write_result"]
+__all__ = ["run", "selection_files", "write_result"]
 
 
-def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path) -> Spec:
+def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path,
+             trust_code: Iterable[str | Path]) -> Spec:
     if isinstance(pipeline, Spec):
         return pipeline
     if isinstance(pipeline, Mapping):
-        return spec_from_dict(pipeline, base=base)
-    return load_spec(pipeline)
+        return spec_from_dict(pipeline, base=base, trust_code=trust_code)
+    return load_spec(pipeline, trust_code=trust_code)
 
 
 def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | None = None,
         overwrite: bool | None = None, write: bool = False, base: str | Path = ".",
-        progress: Callable[[str], None] | None = None) -> RunResult:
+        progress: Callable[[str], None] | None = None, started: float | None = None,
+        trust_code: Iterable[str | Path] = ()) -> RunResult:
     """Run a pipeline and return kept, removed and audit frames and the summary.
 
     ``pipeline`` is a pipeline file path, a dictionary shaped like one
@@ -37,6 +42,13 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     Nothing is written unless ``write`` is true or ``out`` is given; then the
     output folder is checked and claimed before the work starts (see
     :mod:`curate.io.outputs`).
+
+    The summary's ``seconds`` times the stages; ``total_seconds`` the whole
+    run from ``started`` (a :func:`time.perf_counter` value, such as the
+    start of a command; default: this call) until the result is ready or,
+    when writing, until the kept, removed and audit tables are written.
+    A schema module loads only from the pipeline file's folder (``base`` for
+    a dictionary) or from the folders and modules named in ``trust_code``.
 
     Examples
     --------
@@ -49,30 +61,57 @@ def run(pipeline: str | Path | Mapping[str, Any] | Spec, *, out: str | Path | No
     >>> result.summary["rows_removed"], result.audit["kept_as"].to_list()
     (1, [4])
     """
-    spec = _as_spec(pipeline, base)
+    started = time.perf_counter() if started is None else started
+    spec = _as_spec(pipeline, base, trust_code)
     if not write and out is None:
-        return execute(prepare(spec), progress=progress)
+        result = execute(prepare(spec), progress=progress)
+        result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
+        return result
     with claim_output(Path(out) if out is not None else spec.output.folder,
                       overwrite=spec.output.overwrite if overwrite is None else overwrite,
                       inputs=spec_inputs(spec)) as claim:
         result = execute(prepare(spec), progress=progress)
-        write_result(result, claim, report=spec.output.report)
+        write_result(result, claim, report=spec.output.report, started=started)
     return result
 
 
-def write_result(result: RunResult, claim: Claim, report: bool = True) -> None:
+def write_result(result: RunResult, claim: Claim, report: bool = True,
+                 started: float | None = None) -> None:
     """Write kept, removed, audit, summary and report as the run folder ``claim`` holds.
 
     The files are those of :data:`curate.io.folder.RUN_FILES`, each with its
-    size in memory (for the message of a full disk).
+    size in memory (for the message of a full disk). Kept and removed rows are
+    streamed from the input in batches sized by ``[run] memory_mb`` (see
+    :mod:`curate.io.batches`). With ``started``, the summary's
+    ``total_seconds`` is measured once the tables are ready to write.
     """
-    frames = [("kept.parquet", result.kept), ("removed.parquet", result.removed),
-              ("audit.parquet", result.audit), ("protected.parquet", result.spared),
-              ("flagged.parquet", result.flagged)]
-    files = [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
-             for name, frame in frames if frame is not None]
+    if started is not None:
+        result.summary["total_seconds"] = round(time.perf_counter() - started, 4)
+    files = selection_files(result)
+    files += [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
+              for name, frame in (("audit.parquet", result.audit),
+                                  ("protected.parquet", result.spared),
+                                  ("flagged.parquet", result.flagged)) if frame is not None]
     files.append(OutputFile.text("summary.json",
                                  json.dumps(result.summary, indent=2, default=str) + "\n"))
     if report:
         files.append(OutputFile.text("report.html", render_run(result)))
     claim.write_folder(files, kind="run")
+
+
+def selection_files(result: RunResult,
+                    on_batch: Callable[[int], None] | None = None) -> list[OutputFile]:
+    """``kept.parquet`` and ``removed.parquet``, each written from the input batch by batch.
+
+    ``on_batch`` is called with the row count of every batch written.
+    """
+    frame = result.rows_frame()
+    mask = result.kept_mask
+    rows = batch_rows(frame, result.prepared.spec.run.engine.memory_mb)
+    per_row = int(frame.estimated_size()) // max(1, frame.height)
+    kept = int(mask.sum())
+    return [OutputFile("kept.parquet", functools.partial(write_rows, frame, mask, rows=rows,
+                                                         on_batch=on_batch), per_row * kept),
+            OutputFile("removed.parquet", functools.partial(write_rows, frame, ~mask, rows=rows,
+                                                            on_batch=on_batch),
+                       per_row * (frame.height - kept))]

@@ -16,6 +16,8 @@ pipeline looks for.
 
 from __future__ import annotations
 
+import contextlib
+import warnings
 from typing import Any
 
 import numpy as np
@@ -25,7 +27,7 @@ from sklearn.utils import check_consistent_length
 from sklearn.utils.multiclass import check_classification_targets, type_of_target
 from sklearn.utils.validation import validate_data
 
-from curate.errors import UsageError
+from curate.errors import CurateWarning, UsageError, quoted
 from curate.io.schema import feature_kinds
 from curate.methods import METHODS
 from curate.methods.base import MethodInfo
@@ -49,7 +51,8 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         against its declared table when fitting; None means its defaults.
     scale, distance, missing : str
         How rows become points, as in the pipeline file's ``[space]``:
-        ``scale`` "range" (default), "zscore" or "robust"; ``distance``
+        ``scale`` "range" (default), "zscore", "robust" or "none" (values as
+        they are, for pre-scaled features and embeddings); ``distance``
         "euclidean" (default), "manhattan", "heom" or "hvdm"; ``missing``
         "stop" (default: missing values are an error), "impute" or "far".
     classes : "all", "all-but-smallest" or list of labels
@@ -57,6 +60,15 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         count as neighbours.
     seed : int
         Seed of the method's randomness (presentation orders, tie draws).
+    quiet : bool
+        Give no warnings of curate's own (such as a constant column). Each fit
+        warns once per problem; scikit-learn's cross-validation fits a fresh
+        sampler per fold, so ``quiet=True`` is how to silence the repeats.
+    max_removed_share : float or None
+        The safety limit: the share of a class the method may remove, from 0
+        to 1. Over it, ``fit_resample`` raises
+        :class:`curate.errors.SafetyLimitError` (a ``ValueError``) naming the
+        class and the counts. None (the default) or 1.0: no limit.
     **method_params
         Keyword convenience: ``Sampler(method="enn", k=5)`` stores
         ``params={"k": 5}`` (merged over ``params`` into a new dictionary).
@@ -103,7 +115,8 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
 
     def __init__(self, method: str = "enn", params: dict[str, Any] | None = None, *,
                  scale: str = "range", distance: str = "euclidean", missing: str = "stop",
-                 classes: str | list[Any] = "all", seed: int = 0, **method_params: Any) -> None:
+                 classes: str | list[Any] = "all", seed: int = 0, quiet: bool = False,
+                 max_removed_share: float | None = None, **method_params: Any) -> None:
         self.method = method
         # scikit-learn keeps constructor arguments untouched; the one exception,
         # keyword convenience, lands in ``params`` so that get_params sees it.
@@ -113,6 +126,8 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         self.missing = missing
         self.classes = classes
         self.seed = seed
+        self.quiet = quiet
+        self.max_removed_share = max_removed_share
 
     def set_params(self, **values: Any) -> Sampler:
         """Set parameters; names of the method's own parameters go into ``params``.
@@ -172,13 +187,20 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
                              f"n_samples = {frame.height}; give two or more rows")
         if info.compares_classes and len(np.unique(labels)) < 2:
             raise ValueError(f"method {info.key!r} compares classes, but y has one class only "
-                             f"({labels[0]!r}); give two or more classes")
-        space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance, self.missing),
-                            list(range(frame.height)), labels=labels)
+                             f"({quoted(labels[0])}); give two or more classes")
         stage = StageSettings(name=info.key, method=info.key, params=params,
-                              max_removed_share=1.0, classes=self._classes())
-        sel = run_step(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed,
-                       list(range(frame.height))).selection
+                              max_removed_share=self._limit(), classes=self._classes())
+        with warnings.catch_warnings() if self.quiet else contextlib.nullcontext():
+            if self.quiet:
+                warnings.simplefilter("ignore", CurateWarning)
+            space = build_space(frame, kinds, SpaceSettings(self.scale, self.distance,
+                                                            self.missing),
+                                list(range(frame.height)), labels=labels)
+            step = run_step(stage, space, labels, np.zeros(0, dtype=np.int64), self.seed,
+                            list(range(frame.height)))
+        if step.over_limit is not None:
+            raise step.over_limit
+        sel = step.selection
         self.sample_indices_ = np.sort(sel.kept)
         self.audit_ = _audit(info, sel, labels)
         self.scores_ = dict(sel.scores)
@@ -196,7 +218,19 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         if isinstance(self.seed, bool) or not isinstance(self.seed, int | np.integer):
             raise UsageError(f"Sampler: seed must be an integer, got {self.seed!r}",
                              hint="pass seed=0 (or any integer)")
-        return info, check_params(info, dict(self.params or {}), where=f"Sampler({info.key})")
+        return info, check_params(info, dict(self.params or {}), where=f"Sampler({info.key})",
+                                  others="the Sampler's own arguments are: "
+                                         + ", ".join(self._get_param_names()))
+
+    def _limit(self) -> float:
+        share = self.max_removed_share
+        if share is None:
+            return 1.0
+        number = isinstance(share, int | float | np.floating) and not isinstance(share, bool)
+        if not number or not 0.0 <= share <= 1.0:
+            raise UsageError(f"Sampler: max_removed_share = {share!r} is not a share from 0 to 1",
+                             hint="pass a share such as 0.5, or None for no limit")
+        return float(share)
 
     def _classes(self) -> str | tuple[Any, ...]:
         if isinstance(self.classes, str) and self.classes in CLASS_CHOICES:

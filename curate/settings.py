@@ -21,18 +21,21 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Protocol
 
-from curate.errors import PipelineFileError, UsageError
+from curate.errors import PipelineFileError, UsageError, canonical, suggest
 
 __all__ = [
-    "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "K_GRID", "LEARNED_WEIGHTS",
-    "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES", "ClusterSettings", "ColumnRule",
+    "BACKENDS", "CLASS_CHOICES", "COLUMN_TYPES", "DISTANCES", "FAULT_KINDS", "K_GRID",
+    "LEARNED_WEIGHTS", "MIN_MEMORY_MB", "MISSING_POLICIES", "NOMINAL_KINDS", "ON_INVALID", "SCALES",
+    "STAGE_KEYS",
+    "ClusterSettings", "ColumnRule",
     "Declared", "EngineSettings", "InputSettings", "OutputSettings", "Param", "RunSettings",
-    "SpaceSettings", "Spec", "StageSettings", "check_params", "local_workers",
+    "SpaceSettings", "Spec", "StageSettings", "canonical", "check_params", "local_workers",
+    "suggest",
 ]
 
 BACKENDS = ("auto", "brute", "sklearn", "faiss", "fast", "approximate")
 DISTANCES = ("euclidean", "manhattan", "heom", "hvdm")
-SCALES = ("range", "zscore", "robust")
+SCALES = ("range", "zscore", "robust", "none")
 MISSING_POLICIES = ("stop", "impute", "far")
 LEARNED_WEIGHTS = ("mutual-information",)
 COLUMN_TYPES = ("float", "int", "category", "bool", "string")
@@ -40,6 +43,18 @@ NOMINAL_KINDS = ("category", "string", "bool")
 ON_INVALID = ("stop", "quarantine")
 CLASS_CHOICES = ("all", "all-but-smallest")
 K_GRID = tuple(range(1, 26, 2))  # k values `curate evaluate` scores by default
+# Keys every [[stages]] entry takes besides its method's own parameters.
+STAGE_KEYS = ("name", "method", "max_removed_share", "classes", "seed")
+# Kinds of known fault a ground-truth table (`curate evaluate --truth`) may name, and which
+# stages are meant to catch each (a method declares them in ``MethodInfo.catches``).
+FAULT_KINDS = {
+    "re-sent": "a copy of another row, same features and label",
+    "near-copy": "a copy of another row with slightly changed values, same label",
+    "conflict": "a copy of another row's features with another label",
+    "label-flip": "a wrong label",
+    "schema": "a value that breaks the table's schema (quarantined before any stage)",
+}
+MIN_MEMORY_MB = 16  # the smallest [run] memory_mb / --memory-mb accepted
 
 
 @dataclass(frozen=True)
@@ -100,7 +115,7 @@ class Param:
         if not ok_type:
             return f"got {value!r}, expected {self.allowed()}"
         if self.choices is not None and value not in self.choices:
-            return f"got {value!r}, expected {self.allowed()}"
+            return f"got {value!r}, expected {self.allowed()}{suggest(value, self.choices)}"
         if self.low is not None and value < self.low:
             return f"got {value!r}, expected {self.allowed()}"
         if self.high is not None and value > self.high:
@@ -121,8 +136,14 @@ class Declared(Protocol):
     def params(self) -> tuple[Param, ...]: ...
 
 
-def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -> dict[str, Any]:
+def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "",
+                 others: str = "the keys every stage takes are: " + ", ".join(STAGE_KEYS)
+                 ) -> dict[str, Any]:
     """Check ``given`` against the method's table and fill defaults.
+
+    ``others`` names what the caller takes besides the method's own parameters
+    (a pipeline file's stage keys, or the Sampler's arguments), for the hint
+    when a name is unknown.
 
     Examples
     --------
@@ -134,6 +155,11 @@ def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -
     ...
     curate.errors.UsageError: enn: parameter 'k' got 0, expected an integer >= 1
       hint: set k to an integer >= 1
+    >>> try:
+    ...     check_params(METHODS["fcnn"], {"k": 1})
+    ... except UsageError as err:
+    ...     print(err.hint.split("; ")[0])
+    fcnn has no parameters of its own
     """
     prefix = f"{where}: " if where else f"{info.key}: "
     declared = {p.name: p for p in info.params}
@@ -141,10 +167,15 @@ def check_params(info: Declared, given: Mapping[str, Any], *, where: str = "") -
     for name, value in given.items():
         param = declared.get(name)
         if param is None:
+            own = (f"the parameters of {info.key} are: {', '.join(declared)}" if declared
+                   else f"{info.key} has no parameters of its own")
             raise UsageError(
-                f"{prefix}unknown parameter {name!r} for method {info.key!r}",
-                hint=f"the parameters of {info.key} are: {', '.join(declared)}",
+                f"{prefix}unknown parameter {name!r} for method {info.key!r}"
+                + suggest(name, list(declared)),
+                hint=f"{own}; {others}",
             )
+        if param.choices is not None:
+            value = canonical(value, param.choices) or value
         problem = param.problem(value)
         if problem is not None:
             raise UsageError(f"{prefix}parameter {name!r} {problem}",
@@ -181,8 +212,9 @@ class SpaceSettings:
 
     ``weights`` is a mapping column -> weight (columns left out weigh 1) or
     ``"mutual-information"``: weights learned from the labels. ``scale`` applies
-    to ``"euclidean"`` and ``"manhattan"`` only; HEOM and HVDM fix their own
-    numeric scaling, so with them any scale but the default is rejected.
+    to ``"euclidean"`` and ``"manhattan"`` only (``"none"`` measures the values
+    as they are, for pre-scaled features and embeddings); HEOM and HVDM fix
+    their own numeric scaling, so with them any scale but the default is rejected.
 
     Examples
     --------
@@ -199,9 +231,12 @@ class SpaceSettings:
         for key, value, allowed in (("scale", self.scale, SCALES),
                                     ("distance", self.distance, DISTANCES),
                                     ("missing", self.missing, MISSING_POLICIES)):
-            if value not in allowed:
-                raise PipelineFileError(f"[space] {key} = {value!r} is not allowed",
+            if canonical(value, allowed) is None:
+                raise PipelineFileError(f"[space] {key} = {value!r} is not allowed"
+                                        + suggest(value, allowed),
                                         hint=f"use one of {', '.join(map(repr, allowed))}")
+            # letter case is not a choice: "HVDM" is stored as "hvdm" (frozen, hence setattr)
+            object.__setattr__(self, key, canonical(value, allowed))
         if self.distance in ("heom", "hvdm") and self.scale != "range":
             raise PipelineFileError(
                 f"[space] scale = {self.scale!r} contradicts distance = {self.distance!r}, "
@@ -252,7 +287,13 @@ class InputSettings:
 
 @dataclass(frozen=True)
 class StageSettings:
-    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits."""
+    """One ``[[stages]]`` entry: the method, its checked parameters and the stage-level limits.
+
+    The safety limit: no class may lose more than ``max_removed_share`` of
+    its rows (1.0: no share limit) and, with ``keep_every_class``, no class
+    may lose all of them. A pipeline file that sets no ``max_removed_share``
+    gets the method's default (see ``MethodInfo.default_limit``).
+    """
 
     name: str
     method: str
@@ -260,6 +301,7 @@ class StageSettings:
     max_removed_share: float = 0.5
     classes: str | tuple[Any, ...] = "all"
     seed: int | None = None
+    keep_every_class: bool = False
 
 
 @dataclass(frozen=True)

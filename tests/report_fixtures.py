@@ -90,7 +90,11 @@ def keyed_numbers_match(page: Page, sources: dict[str, Any], skip: str | None = 
             assert text == "-", key
             continue
         assert float(value) == pytest.approx(float(truth), rel=1e-12), key
-        # The visible text is the same number, rounded for reading.
+        # The visible text is the same number, rounded for reading (shares as percentages,
+        # to a tenth of a percent at least).
+        if text.endswith("%"):
+            assert float(text[:-1]) / 100 == pytest.approx(float(truth), abs=5e-4), key
+            continue
         assert float(text) == pytest.approx(float(truth), rel=1e-3, abs=1e-4), key
         assert math.isfinite(float(text))
 

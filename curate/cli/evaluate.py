@@ -9,6 +9,7 @@ from contextlib import nullcontext
 from pathlib import Path
 from typing import Any
 
+from curate.cli.pipeline import add_trust_option
 from curate.errors import UsageError
 from curate.settings import K_GRID
 
@@ -66,6 +67,15 @@ def parse_model_params(items: Sequence[str]) -> dict[str, Any]:
     return params
 
 
+def _check_truth(truth: str | None) -> None:
+    """A missing --truth table is named before any work."""
+    if truth is not None and not Path(truth).exists():
+        raise UsageError(f"--truth {truth} does not exist",
+                         hint="give the table of known faulty rows (CSV or Parquet, with the "
+                              "input's id column and 'fault'); a relative path starts where "
+                              "curate runs, not at the pipeline file")
+
+
 def _options(args: argparse.Namespace) -> dict[str, Any]:
     """The evaluation's settings from the command line, for one pipeline or several."""
     return {"folds": args.folds, "repeats": args.repeats, "ks": parse_ks(args.k),
@@ -102,7 +112,8 @@ def _cmd_variants(args: argparse.Namespace) -> int:
     if args.vary and len(args.pipeline) > 1:
         raise UsageError("--vary works on one pipeline file, but several were given",
                          hint="give one pipeline file with --vary, or several files without it")
-    specs = [load_spec(p) for p in args.pipeline]
+    _check_truth(args.truth)
+    specs = [load_spec(p, trust_code=args.trust_code) for p in args.pipeline]
     reads = [r for spec in specs for r in spec_inputs(spec)]
     out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
     with Reporter(args.quiet) as say, out or nullcontext() as claim:
@@ -130,7 +141,8 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
     from curate.pipeline.prepare import prepare
     from curate.spec import load_spec
 
-    spec = load_spec(args.pipeline[0])
+    _check_truth(args.truth)
+    spec = load_spec(args.pipeline[0], trust_code=args.trust_code)
     reads = spec_inputs(spec) + ([("the fault table", Path(args.truth))] if args.truth else [])
     out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
     with Reporter(args.quiet) as say, out or nullcontext() as claim:
@@ -160,6 +172,7 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--vary", action="append", default=[], metavar="STAGE.KEY=V1,V2",
                    help="compare variants of one pipeline file, such as "
                    "mislabels.method=enn,committee (repeatable: every combination)")
+    add_trust_option(p)
     p.add_argument("--folds", type=int, default=10, help="stratified folds (default 10)")
     p.add_argument("--repeats", type=int, default=1, help="repeat with seeds seed, seed+1, ...")
     p.add_argument("--k", help="k values of the kNN classifier, such as 1,3,5, or 'grid' "

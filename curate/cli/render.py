@@ -13,38 +13,67 @@ from typing import Any
 
 import numpy as np
 
+from curate.errors import counted
 from curate.io.diff import RunDiff
 from curate.methods.base import MethodInfo
 from curate.report.html import over_limit_notes
+from curate.settings import Param
 
 __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "methods_text",
            "ranking_text", "review_text", "summary_text"]
 
 
-def summary_text(summary: dict[str, Any], out: Path) -> str:
-    """A run's summary in a few lines: rows in, kept, removed, and each stage."""
-    lines = [f"{summary['rows_in']} rows in, {summary['rows_kept']} kept, "
+def summary_text(summary: dict[str, Any], out: Path, seconds: float | None = None) -> str:
+    """A run's summary in a few lines: rows in, kept, removed, each stage, and the times.
+
+    ``seconds`` is the whole command's time, when the caller measured it.
+    """
+    lines = [f"{counted(summary['rows_in'], 'row')} in, {summary['rows_kept']} kept, "
              f"{summary['rows_removed']} removed ({summary['rows_quarantined']} quarantined)"]
     for st in summary["stages"]:
         reasons = ", ".join(f"{k} {v}" for k, v in st["by_reason"].items()) or "nothing"
         lines.append(f"  {st['name']} ({st['method']}): {st['rows_in']} in, removed {reasons}, "
                      f"{st['seconds']:.2f} s")
+    whole = f"; whole command {seconds:.2f} s" if seconds is not None else ""
+    lines.append(f"stages {summary['seconds']:.2f} s{whole}")
     lines.append(f"run folder: {out}")
     return "\n".join(lines)
 
 
+def _rounded(value: float | None) -> str:
+    return "-" if value is None else f"{value:.3g}"
+
+
 def distances_text(profile: Mapping[str, Any]) -> str:
-    """The distance profile of `curate distances`: quantiles, then one line per radius."""
-    lines: list[str] = []
-    for key, values in profile.items():
-        if key == "candidates":
-            lines.append("candidate radius   rows with a same-label row within   would remove   "
-                         "conflicting")
-            for c in values:
-                lines.append(f"  {c['radius']:<16.4g} {c['rows_with_same_label_within']:>30} "
-                             f"{c['would_remove']:>14} {c['conflicting_rows']:>13}")
-        else:
-            lines.append(f"{key}: {json.dumps(values)}")
+    """The distance profile of `curate distances` as two tables, numbers to 3 significant digits.
+
+    Examples
+    --------
+    >>> print(distances_text({"rows": 4, "metric": "euclidean", "rows_alone_in_their_label": 1,
+    ...     "nearest_same_label": {"0.5": 0.1234567}, "nearest_other_label": {"0.5": 1.5},
+    ...     "candidates": [{"radius": 0.2, "rows_with_same_label_within": 2, "would_remove": 1,
+    ...                     "conflicting_rows": 0}]}))
+    4 rows, euclidean distance; rows alone in their label: 1
+    distance to the nearest row       50%
+      with the same label           0.123
+      with another label              1.5
+    <BLANKLINE>
+    candidate radius   rows with a same-label row within   would remove   conflicting rows
+                 0.2                                   2              1                  0
+    """
+    quantiles = list(profile["nearest_same_label"])
+    lines = [f"{counted(profile['rows'], 'row')}, {profile.get('distance', profile['metric'])} "
+             f"distance; rows alone in their label: {profile['rows_alone_in_their_label']}",
+             "distance to the nearest row  " + "".join(f"{float(q):>8.0%}" for q in quantiles)]
+    for title, key in (("with the same label", "nearest_same_label"),
+                       ("with another label", "nearest_other_label")):
+        lines.append(f"  {title:<27}" + "".join(f"{_rounded(profile[key][q]):>8}"
+                                                for q in quantiles))
+    lines += ["", "candidate radius   rows with a same-label row within   would remove   "
+              "conflicting rows"]
+    for c in profile["candidates"]:
+        lines.append(f"{_rounded(c['radius']):>16}   {c['rows_with_same_label_within']:>33}   "
+                     f"{c['would_remove']:>12}   {c['conflicting_rows']:>16}")
     return "\n".join(lines)
 
 
@@ -52,6 +81,9 @@ def methods_table(methods: Mapping[str, MethodInfo]) -> list[dict[str, Any]]:
     """Every method with its parameters, as JSON-ready data (`curate methods --json`)."""
     return [{"key": m.key, "name": m.name, "family": m.family, "reference": m.reference,
              "purpose": m.purpose, "reasons": m.reasons,
+             "default_max_removed_share": m.default_limit()[0],
+             "default_keep_every_class": m.default_limit()[1], "default_limit": m.limit_text(),
+             "catches": list(m.catches),
              "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
                          "doc": p.doc} for p in m.params]} for m in methods.values()]
 
@@ -62,34 +94,60 @@ def methods_text(methods: Mapping[str, MethodInfo]) -> str:
     for info in methods.values():
         lines.append(f"{info.key:<24} {info.name} ({info.family}; {info.reference})")
         lines.append(f"{'':<24} {info.purpose}")
+        lines.append(f"{'':<24} default safety limit: {info.limit_text()}")
+        if info.catches:
+            lines.append(f"{'':<24} meant to catch: {', '.join(info.catches)}")
         for p in info.params:
-            lines.append(f"{'':<26}{p.name} = {p.default!r}: {p.doc} ({p.allowed()})")
+            lines.append(f"{'':<26}{p.name} = {_default(p)}: {p.doc} ({p.allowed()})")
         lines.append("")
     return "\n".join(lines)
 
 
-def review_text(rows: int, run: str, out: str) -> str:
-    """What `curate review` wrote, and what the reviewer does next."""
-    return (f"wrote {rows} removed rows of {run} to {out}\n"
+def _default(param: Param) -> str:
+    """A parameter's default as a user would write it: "(required)" or "(none)" for no value.
+
+    Examples
+    --------
+    >>> _default(Param("radius", float, None, "r", required=True)), _default(Param("k", int, 3, ""))
+    ('(required)', '3')
+    """
+    if param.default is None:
+        return "(required)" if param.required else "(none)"
+    return json.dumps(param.default) if isinstance(param.default, str | bool) else str(param.default)
+
+
+def review_text(rows: int, run: str, out: str, protect_path: str) -> str:
+    """What `curate review` wrote, and what the reviewer does next.
+
+    ``protect_path`` is ``out`` as the pipeline file must name it (relative to its folder).
+    """
+    return (f"wrote {counted(rows, 'removed row')} of {run} to {out}\n"
             "write keep in the decision column of rows that must stay (empty or remove: no "
-            f"objection), then add to [input]: protect_file = \"{out}\"")
+            f"objection), then add to [input]: protect_file = {json.dumps(protect_path)}")
 
 
-def diff_text(diff: RunDiff) -> str:
-    """The diff as a table for the terminal: one line per row, then each run's detail."""
+def diff_text(diff: RunDiff, limit: int = 20) -> str:
+    """The diff as a table for the terminal: one line per row, then each run's detail.
+
+    Only the first ``limit`` changed rows are listed; a last line counts the rest and
+    points to ``--out`` (every changed row in a CSV file) and ``--json``.
+    """
     if diff.changes.height == 0:
         return f"no row changed fate from {diff.run_a} to {diff.run_b} ({diff.compared} compared)"
     counts = ", ".join(f"{n} {c}" for c, n in diff.counts().items())
-    lines = [f"{diff.changes.height} of {diff.compared} rows changed fate from {diff.run_a} (A) "
+    lines = [f"{diff.changes.height} of {counted(diff.compared, 'row')} changed fate from {diff.run_a} (A) "
              f"to {diff.run_b} (B): {counts}"]
     width = max(6, *(len(r) for r in diff.changes["row_id"]))
     lines.append(f"{'row_id':<{width}}  {'change':<21}  {'run A':<34}  run B")
-    for r in diff.changes.iter_rows(named=True):
+    for r in diff.changes.head(limit).iter_rows(named=True):
         a, b = (r[f"{p}_fate"] if r[f"{p}_fate"] == "kept"
                 else f"{r[f'{p}_stage']} / {r[f'{p}_reason']}" for p in ("a", "b"))
         lines.append(f"{r['row_id']:<{width}}  {r['change']:<21}  {a:<34}  {b}")
         lines += [f"{'':<{width}}  {p.upper()}: {r[f'{p}_detail']}" for p in ("a", "b")
                   if r[f"{p}_fate"] == "removed"]
+    if diff.changes.height > limit:
+        lines.append(f"... and {counted(diff.changes.height - limit, 'more row')}: write every "
+                     "changed row with --out FILE (CSV), or print them with --json")
     return "\n".join(lines)
 
 
@@ -104,10 +162,16 @@ def _fixed(value: Any, width: int, digits: int = 3, sign: bool = False) -> str:
 
 
 def _detection_text(title: str, block: Mapping[str, Any]) -> list[str]:
-    lines = [title, f"  {'stage':<28}{'removed':>9}{'found':>9}{'precision':>11}{'recall':>9}"]
-    for st in [*block["stages"], {"stage": "all stages", **block["all_stages"]}]:
-        lines.append(f"  {str(st['stage'])[:27]:<28}{st['removed']:>9,}{st['found']:>9,}"
-                     f"{_fixed(st['precision'], 11)}{_fixed(st['recall'], 9)}")
+    lines = [title, f"  {'stage':<24}{'meant to catch':<22}{'removed':>8}{'faulty':>8}"
+                    f"{'found':>7}{'precision':>10}{'recall':>8}"]
+    every = {"stage": "all stages", "meant_for": ["any fault"], **block["all_stages"]}
+    for st in [*block["stages"], every]:
+        meant = ", ".join(st.get("meant_for", [])) or "nothing"
+        lines.append(f"  {str(st['stage'])[:23]:<24}{meant[:21]:<22}{st['removed']:>8,}"
+                     f"{st['faulty']:>8,}{st['found']:>7,}{_fixed(st['precision'], 10)}"
+                     f"{_fixed(st['recall'], 8)}")
+    lines.append("  recall = found / faulty; faulty: the training rows (over all folds) with a "
+                 "fault the stage is meant to catch that reached it; all stages: every fault")
     return lines
 
 
@@ -167,7 +231,7 @@ def evaluation_text(e: Mapping[str, Any]) -> str:
                      f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['macro_f1'], 9)}"
                      f"{_fixed(r['kept_share'], 7, 2)}{_fixed(r.get('accuracy_difference'), 8, 3, True)}"
                      f"{_fixed(r.get('p_value'), 8)}")
-    lines += [f"warning: {w}" for w in over_limit_notes(e)]
+    lines += [f"warning: {w}" for w in [*e.get("warnings", []), *over_limit_notes(e)]]
     if e["best_k"]:
         lines.append(f"best k: {e['best_k'].get('uncurated')} without curation, "
                      f"{e['best_k'].get('curated')} with curation")

@@ -166,8 +166,10 @@ def _connect(settings: ClusterSettings) -> tuple[Any, Any]:
     try:
         if workers is None:
             return Client(address, timeout=CONNECT_SECONDS), None
+        # Port 0: the scheduler's HTTP server takes a free loopback port, so a second cluster
+        # on the machine neither warns about 8787 nor listens on every interface.
         cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                               dashboard_address=None)
+                               dashboard_address="127.0.0.1:0")
         return Client(cluster), cluster
     except (OSError, TimeoutError) as err:
         raise ClusterError(f"[cluster] address {address!r}: no Dask scheduler answered within "

@@ -25,7 +25,8 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable, Mapping, Sequence
+import warnings
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -35,11 +36,13 @@ import polars as pl
 
 from curate.errors import InputError, UsageError
 from curate.evaluation import stats
-from curate.evaluation.models import estimator, knn_votes, metrics, stack
+from curate.evaluation.detection import detection_by_stage, recall_by_fault
+from curate.evaluation.models import estimator, fit_predict, knn_votes, metrics, stack
 from curate.evaluation.stats import KNN, FoldOutcome, Key
 from curate.io.output_checks import spec_inputs
 from curate.io.outputs import OutputFile, claim_output
 from curate.io.read import read_input
+from curate.methods import METHODS
 from curate.pipeline.loop import execute
 from curate.pipeline.prepare import prepare
 from curate.pipeline.records import Prepared
@@ -130,9 +133,9 @@ def _fold(setup: _Setup, repeat: int, number: int, train: np.ndarray,
             scores[(KNN, k, curated)] = metrics(y_test, classes[predicted])
         clipped |= {(KNN, k, curated) for k in short}
         if setup.model is not None:
-            est = estimator(*setup.model, seed=setup.seed)
-            est.fit(space_train.matrix[reference], y_train[reference])
-            scores[(setup.model[0], None, curated)] = metrics(y_test, est.predict(space_test.matrix))
+            predicted = fit_predict(*setup.model, setup.seed, space_train.matrix[reference],
+                                    y_train[reference], space_test.matrix)
+            scores[(setup.model[0], None, curated)] = metrics(y_test, predicted)
     faults = None if setup.faults is None else setup.faults[train]
     return FoldOutcome(len(train), len(test), len(kept),
                        stats.majority_accuracy(labels[train], y_test), scores, clipped, lookup,
@@ -163,16 +166,17 @@ def _summarise(setup: _Setup, folds: list[FoldOutcome], n_folds: int, repeats: i
         "over_limit": {name: sum(name in f.over_limit for f in folds) for name in names
                        if any(name in f.over_limit for f in folds)},
     }
+    meant = [METHODS[stage.method].catches for stage in prep.spec.stages]
     if setup.noise > 0:
         result["noise"] = {"rate": setup.noise, "towards": setup.towards,
                            "flipped": int(sum(int(f.flipped_rows().sum()) for f in folds)),
-                           **stats.detection_by_stage(folds, FoldOutcome.flipped_rows, names)}
+                           **detection_by_stage(folds, FoldOutcome.flip_kinds, names, meant)}
     if setup.faults is not None:
         kinds, counts = np.unique(setup.faults[setup.faults != ""], return_counts=True)
         result["truth"] = {"file": str(truth), "faults": dict(zip(kinds.tolist(), counts.tolist(),
                                                                    strict=True)),
-                           **stats.detection_by_stage(folds, FoldOutcome.faulty_rows, names),
-                           "by_fault": stats.recall_by_fault(folds)}
+                           **detection_by_stage(folds, FoldOutcome.fault_kinds, names, meant),
+                           "by_fault": recall_by_fault(folds)}
     result["seconds"] = round(seconds, 3)
     return stats.json_safe(result)
 
@@ -183,6 +187,10 @@ def read_faults(path: str | Path, prep: Prepared) -> np.ndarray:
     The table (CSV or Parquet) needs the input's id column (``row_id`` when the
     input has none) and a ``fault`` column; one row per faulty input row.
     """
+    if not Path(path).exists():
+        raise UsageError(f"truth file {path} (--truth) does not exist",
+                         hint="give the table of known faulty rows: CSV or Parquet with the "
+                              "input's id column and 'fault'")
     table = read_input(Path(path))
     id_column = prep.spec.input.id or "row_id"
     missing = [c for c in (id_column, "fault") if c not in table.columns]
@@ -207,16 +215,26 @@ def _check_request(prep: Prepared, folds: int, repeats: int, ks: Sequence[int], 
     if not 0.0 <= noise < 1.0:
         raise UsageError(f"--inject-noise {noise} is not a share from 0 to below 1",
                          hint="give a share such as 0.1 (10% of training labels flipped)")
-    values, counts = np.unique(prep.space_labels.astype(str), return_counts=True)
-    if counts.min() < folds:
-        small = values[np.argmin(counts)]
-        raise UsageError(f"{prep.spec.input.path}: class {str(small)!r} has {counts.min()} rows, fewer "
-                         f"than the {folds} folds, so some test folds would lack it",
-                         hint=f"use --folds {max(2, int(counts.min()))} or fewer"
-                              if counts.min() >= 2 else "give that class more rows")
+    values = np.unique(prep.space_labels.astype(str))
+    if folds > len(prep.space_labels):
+        raise UsageError(f"--folds {folds}: the input has only {len(prep.space_labels)} rows "
+                         "that passed its schema, fewer than the folds",
+                         hint=f"use --folds {max(2, min(10, len(prep.space_labels)))} or fewer")
     if towards is not None and str(towards) not in values.tolist():
         raise UsageError(f"--noise-towards {towards!r} is not a class of the input",
                          hint=f"use one of: {', '.join(values.tolist()[:10])}")
+
+
+def _check_ks(rows: int, folds: int, ks: Sequence[int]) -> None:
+    """Refuse a k larger than every training part, before any fold runs.
+
+    Up to the largest part a k is served: where a part is smaller, all its rows vote.
+    """
+    train = rows - rows // folds  # stratified test folds hold at least floor(rows / folds) rows
+    if ks and max(ks) > train:
+        raise UsageError(f"--k {max(ks)} asks for more neighbours than the {train} training rows "
+                         f"a fold has at most ({rows} rows, {folds} folds)",
+                         hint=f"use k values up to {train}, such as --k 1,3,5")
 
 
 def _valid_frame(prep: Prepared) -> pl.DataFrame:
@@ -230,9 +248,8 @@ def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,
                       noise_towards: Any = None, truth: str | Path | None = None, seed: int = 0,
                       progress: Callable[[str], None] | None = None) -> dict[str, Any]:
     """Evaluate an already prepared pipeline; see :func:`evaluate` for the parameters."""
-    from sklearn.model_selection import StratifiedKFold
-
     _check_request(prep, folds, repeats, ks, inject_noise, noise_towards)
+    _check_ks(len(prep.space_labels), folds, ks)
     params = dict(model_params or {})
     if model is not None:
         estimator(model, params, seed)  # a bad name or parameter fails before any fold runs
@@ -243,20 +260,55 @@ def evaluate_prepared(prep: Prepared, *, folds: int = 10, repeats: int = 1,
     started = time.perf_counter()
     labels = prep.space_labels
     outcomes: list[FoldOutcome] = []
+    tests: list[np.ndarray] = []
     for repeat in range(repeats):
-        split = StratifiedKFold(n_splits=folds, shuffle=True, random_state=seed + repeat)
-        for number, (train, test) in enumerate(split.split(np.zeros((len(labels), 1)), labels)):
+        for number, (train, test) in enumerate(_splits(labels, folds, seed + repeat)):
             say(f"repeat {repeat + 1}/{repeats}, fold {number + 1}/{folds}: "
                 f"{len(train)} training rows, {len(test)} test rows")
             outcomes.append(_fold(setup, repeat, number, train, test))
-    return _summarise(setup, outcomes, folds, repeats, truth, time.perf_counter() - started)
+            tests.append(test)
+    result = _summarise(setup, outcomes, folds, repeats, truth, time.perf_counter() - started)
+    result["warnings"] = _missing_classes(labels, tests, folds)
+    return result
+
+
+def _splits(labels: np.ndarray, folds: int, seed: int) -> list[tuple[np.ndarray, np.ndarray]]:
+    """scikit-learn's shuffled StratifiedKFold; its warning about a class with fewer rows than
+    folds is replaced by the evaluation's own ``warnings`` (see :func:`_missing_classes`)."""
+    from sklearn.model_selection import StratifiedKFold
+
+    split = StratifiedKFold(n_splits=folds, shuffle=True, random_state=seed)
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message="The least populated class")
+        return list(split.split(np.zeros((len(labels), 1)), labels))
+
+
+def _missing_classes(labels: np.ndarray, tests: list[np.ndarray], folds: int) -> list[str]:
+    """One sentence per class that some test folds hold no row of.
+
+    Examples
+    --------
+    >>> _missing_classes(np.array(["a"] * 4 + ["b"]), [np.array([0, 4]), np.array([1, 2, 3])], 2)
+    ["class 'b' has 1 row, fewer than the 2 folds: 1 of the 2 test folds holds none of its rows"]
+    """
+    text = labels.astype(str)
+    values, counts = np.unique(text, return_counts=True)
+    notes = []
+    for value, count in zip(values.tolist(), counts.tolist(), strict=True):
+        lacking = sum(not np.any(text[test] == value) for test in tests)
+        if lacking:
+            notes.append(f"class {value!r} has {count} row{'' if count == 1 else 's'}, fewer "
+                         f"than the {folds} folds: {lacking} of the {len(tests)} test folds "
+                         f"hold{'s' if lacking == 1 else ''} none of its rows")
+    return notes
 
 
 def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
              ks: Sequence[int] = K_GRID, model: str | None = None,
              model_params: Mapping[str, Any] | None = None, inject_noise: float = 0.0,
              noise_towards: Any = None, truth: str | Path | None = None, seed: int = 0,
-             progress: Callable[[str], None] | None = None) -> dict[str, Any]:
+             progress: Callable[[str], None] | None = None,
+             trust_code: Iterable[str | Path] = ()) -> dict[str, Any]:
     """Measure, without leakage, what the pipeline's curation does to classification.
 
     Parameters
@@ -280,13 +332,17 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
         flipped rows.
     seed : int
         Seed of the folds and of the label flips.
+    trust_code : folders and module names, optional
+        Where the pipeline file's schema module may load from besides the
+        pipeline file's folder (as ``--trust-code``; see :mod:`curate.io.trust`).
 
     Returns
     -------
     dict with ``folds``, ``repeats``, ``baseline_accuracy``, ``results`` (one
     record per model, k and curated or not), ``best_k``, ``lookup``,
     ``over_limit`` (stage name: folds over its limit), ``noise`` and ``truth``
-    (None unless asked), all JSON-safe.
+    (None unless asked) and ``warnings`` (sentences, such as a class with
+    fewer rows than folds that some test folds lack), all JSON-safe.
 
     Examples
     --------
@@ -304,7 +360,7 @@ def evaluate(spec: Spec | str | Path, *, folds: int = 10, repeats: int = 1,
     0.333
     """
     if not isinstance(spec, Spec):
-        spec = load_spec(spec)
+        spec = load_spec(spec, trust_code=trust_code)
     return evaluate_prepared(prepare(spec), folds=folds, repeats=repeats, ks=ks, model=model,
                              model_params=model_params, inject_noise=inject_noise,
                              noise_towards=noise_towards, truth=truth, seed=seed,

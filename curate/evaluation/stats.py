@@ -6,16 +6,15 @@ explicit seed.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 from scipy import stats as sps
 
-__all__ = ["KNN", "METRICS", "FoldOutcome", "best_k", "corrected_resampled_ttest", "detection",
-           "detection_by_stage", "flip_labels", "fold_record", "json_safe", "majority_accuracy",
-           "mean_std", "rates", "recall_by_fault"]
+__all__ = ["KNN", "METRICS", "FoldOutcome", "best_k", "corrected_resampled_ttest", "flip_labels",
+           "fold_record", "json_safe", "majority_accuracy", "mean_std"]
 
 
 def corrected_resampled_ttest(a: Sequence[float] | np.ndarray, b: Sequence[float] | np.ndarray,
@@ -118,34 +117,6 @@ def flip_labels(labels: np.ndarray, rate: float, seed: int | Sequence[int],
     return new, flipped
 
 
-def detection(removed: np.ndarray, positives: np.ndarray) -> dict[str, float | int]:
-    """Precision and recall of removed rows against known faulty rows (two bool masks).
-
-    Precision is undefined (NaN) when nothing was removed, recall when there
-    is nothing to find.
-
-    Examples
-    --------
-    >>> detection(np.array([1, 1, 0, 0], bool), np.array([1, 0, 1, 0], bool))
-    {'removed': 2, 'faulty': 2, 'found': 1, 'precision': 0.5, 'recall': 0.5}
-    """
-    removed, positives = np.asarray(removed, bool), np.asarray(positives, bool)
-    return rates(int(removed.sum()), int(positives.sum()), int(np.sum(removed & positives)))
-
-
-def rates(removed: int, faulty: int, found: int) -> dict[str, float | int]:
-    """Precision ``found / removed`` and recall ``found / faulty`` from counts (NaN when 0/0).
-
-    Examples
-    --------
-    >>> rates(4, 0, 0)["recall"]
-    nan
-    """
-    return {"removed": removed, "faulty": faulty, "found": found,
-            "precision": found / removed if removed else float("nan"),
-            "recall": found / faulty if faulty else float("nan")}
-
-
 def mean_std(values: Sequence[float] | np.ndarray) -> tuple[float, float]:
     """Mean and sample standard deviation (ddof 1; 0 for a single value).
 
@@ -207,6 +178,14 @@ class FoldOutcome:
         """Mask of training rows with a known fault (all False without a truth table)."""
         return self._mask(np.zeros(0)) if self.faults is None else self.faults != ""
 
+    def flip_kinds(self) -> np.ndarray:
+        """Fault kind of each training row under injected noise: "label-flip" or ""."""
+        return np.where(self.flipped_rows(), "label-flip", "")
+
+    def fault_kinds(self) -> np.ndarray:
+        """Known fault kind of each training row ("" for none, or without a truth table)."""
+        return np.full(self.n_train, "") if self.faults is None else self.faults
+
     def removed_rows(self, stage: int | None = None) -> np.ndarray:
         """Mask of training rows removed by one stage (by number), or by any stage."""
         if stage is not None:
@@ -245,58 +224,6 @@ def fold_record(folds: Sequence[FoldOutcome], key: Key, ratio: float) -> dict[st
         record.update(accuracy_difference=record["accuracy"] - float(np.mean(plain)),
                       t_statistic=t, p_value=p)
     return record
-
-
-def detection_by_stage(folds: Sequence[FoldOutcome], faulty: Callable[[FoldOutcome], np.ndarray],
-                       names: Sequence[str]) -> dict[str, Any]:
-    """Precision and recall of each stage's removals, and of all stages, against faulty rows.
-
-    Counts add up over folds. Recall is against every faulty training row, so
-    the stages' recalls add up to the recall of all stages together.
-
-    Examples
-    --------
-    >>> f = FoldOutcome(4, 2, 2, 0.5, {}, set(), {}, [np.array([0]), np.array([1])],
-    ...                 np.array([True, False, True, False]), None)
-    >>> out = detection_by_stage([f], FoldOutcome.flipped_rows, ["copies", "mislabels"])
-    >>> out["stages"][0]["recall"], out["all_stages"]["precision"]
-    (0.5, 0.5)
-    """
-    sums = np.zeros((len(names) + 1, 3), dtype=np.int64)
-    for fold in folds:
-        bad = faulty(fold)
-        for i in range(len(names)):
-            mask = fold.removed_rows(i)
-            sums[i] += (mask.sum(), bad.sum(), (mask & bad).sum())
-        every = fold.removed_rows()
-        sums[-1] += (every.sum(), bad.sum(), (every & bad).sum())
-    stages = [{"stage": name, **rates(*(int(v) for v in row))}
-              for name, row in zip(names, sums[:-1], strict=True)]
-    return {"stages": stages, "all_stages": rates(*(int(v) for v in sums[-1]))}
-
-
-def recall_by_fault(folds: Sequence[FoldOutcome]) -> dict[str, dict[str, Any]]:
-    """Recall of all stages together for each kind of known fault, over every fold.
-
-    Examples
-    --------
-    >>> f = FoldOutcome(3, 1, 2, 0.5, {}, set(), {}, [np.array([0])], None,
-    ...                 np.array(["copy", "copy", ""]))
-    >>> recall_by_fault([f])
-    {'copy': {'faulty': 2, 'found': 1, 'recall': 0.5}}
-    """
-    found: dict[str, list[int]] = {}
-    for fold in folds:
-        if fold.faults is None:
-            continue
-        every = fold.removed_rows()
-        for kind in np.unique(fold.faults[fold.faults != ""]).tolist():
-            at = fold.faults == kind
-            counts = found.setdefault(kind, [0, 0])
-            counts[0] += int(at.sum())
-            counts[1] += int((every & at).sum())
-    return {kind: {"faulty": n, "found": hit, "recall": hit / n}
-            for kind, (n, hit) in sorted(found.items())}
 
 
 def best_k(records: Sequence[dict[str, Any]]) -> dict[str, int]:

@@ -14,7 +14,7 @@ from typing import Any
 
 import polars as pl
 
-from curate.errors import UsageError
+from curate.errors import UsageError, counted
 from curate.io.folder import run_folder
 
 __all__ = ["CHANGES", "RunDiff", "diff_runs", "fates"]
@@ -93,12 +93,13 @@ def _sides(run: Path, prefix: str) -> pl.DataFrame:
     return fates(run).rename(lambda c: c if c == "row_id" else f"{prefix}_{c}")
 
 
-def diff_runs(run_a: str | Path, run_b: str | Path) -> RunDiff:
+def diff_runs(run_a: str | Path, run_b: str | Path, *, force: bool = False) -> RunDiff:
     """Compare two run folders row by row.
 
-    Runs over different inputs (``input_sha256`` in their summaries differs)
-    are compared on the row ids they share, with a warning that says how many
-    ids only one of them has; with no shared id at all that is an error.
+    Runs over different inputs (``input_sha256`` in their summaries differs) are
+    refused: the same id may name another row. With ``force`` they are compared
+    on the row ids they share, with a warning that says how many ids only one of
+    them has; with no shared id at all that is an error.
 
     Examples
     --------
@@ -117,9 +118,14 @@ def diff_runs(run_a: str | Path, run_b: str | Path) -> RunDiff:
     if not same and both.height == 0:
         raise UsageError(f"runs {a} and {b} read different inputs and share no row id",
                          hint="compare two runs over the same input (or one that keeps its ids)")
+    inputs = (f"the runs read different inputs (input_sha256 {str(sha[0])[:12]} in {a}, "
+              f"{str(sha[1])[:12]} in {b})")
+    if not same and not force:
+        raise UsageError(f"{inputs}: a row id may name another row in each",
+                         hint=f"compare two runs over the same input, or add --force to compare "
+                              f"the {counted(both.height, 'row id')} both have")
     warning = None if same else (
-        f"the runs read different inputs (input_sha256 {str(sha[0])[:12]} in {a}, "
-        f"{str(sha[1])[:12]} in {b}); comparing the {both.height} row ids both have "
+        f"{inputs}; comparing the {counted(both.height, 'row id')} both have "
         f"({left.height - both.height} only in A, {right.height - both.height} only in B)")
     moved = pl.col("a_fate") != pl.col("b_fate")
     other = (pl.col("a_stage") != pl.col("b_stage")) | (pl.col("a_reason") != pl.col("b_reason"))

@@ -10,6 +10,7 @@ import numpy as np
 import polars as pl
 
 from curate.errors import InputError, PipelineFileError, UsageError, first_ids
+from curate.io.globbing import glob_files, unique_files
 
 __all__ = ["file_sha256", "input_files", "read_input", "row_ids"]
 
@@ -18,6 +19,9 @@ POSITION = "__curate_position"
 
 def input_files(path: Path) -> list[Path]:
     """Resolve a file, a folder of Parquet/CSV files or a glob to a sorted list of files.
+
+    Each real file is listed once, however many links lead to it (a glob
+    through a symbolic-link loop included: see :mod:`curate.io.globbing`).
 
     Examples
     --------
@@ -28,10 +32,10 @@ def input_files(path: Path) -> list[Path]:
       hint: fix [input] path in the pipeline file (relative paths start at the pipeline file's folder)
     """
     text = str(path)
-    if any(ch in text for ch in "*?["):
-        files = sorted(Path(p) for p in glob.glob(text, recursive=True) if Path(p).is_file())
+    if glob.has_magic(text):
+        files = glob_files(text)
     elif path.is_dir():
-        files = sorted(p for p in path.iterdir() if p.suffix in (".parquet", ".csv") and p.is_file())
+        files = unique_files(sorted(p for p in path.iterdir() if p.suffix in (".parquet", ".csv")))
     elif path.is_file():
         files = [path]
     else:
@@ -49,11 +53,27 @@ def input_files(path: Path) -> list[Path]:
     return files
 
 
-def _scan(files: list[Path]) -> pl.LazyFrame:
+def _scan(files: list[Path], infer: int | None = 10000) -> pl.LazyFrame:
     if files[0].suffix == ".parquet":
         return pl.scan_parquet([str(p) for p in files])
-    return pl.concat([pl.scan_csv(str(p), infer_schema_length=10000) for p in files],
+    return pl.concat([pl.scan_csv(str(p), infer_schema_length=infer) for p in files],
                      how="vertical")
+
+
+def _collect(files: list[Path], columns: list[str] | None) -> pl.DataFrame:
+    """Read the files; a CSV cell that breaks the type guessed from the first rows means
+    reading again with types guessed from every row (that column then reads as text, and
+    the input check names the stray cells: see :mod:`curate.io.suspect`)."""
+    def read(infer: int | None) -> pl.DataFrame:
+        lazy = _scan(files, infer)
+        return (lazy if columns is None else lazy.select(columns)).collect()
+
+    try:
+        return read(10000)
+    except pl.exceptions.ComputeError as err:
+        if files[0].suffix != ".csv" or "could not parse" not in str(err):
+            raise
+    return read(None)
 
 
 def read_input(path: Path, columns: list[str] | None = None) -> pl.DataFrame:
@@ -69,10 +89,7 @@ def read_input(path: Path, columns: list[str] | None = None) -> pl.DataFrame:
     """
     files = input_files(path)
     try:
-        lazy = _scan(files)
-        if columns is not None:
-            lazy = lazy.select(columns)
-        frame = lazy.collect()
+        frame = _collect(files, columns)
     except (pl.exceptions.PolarsError, OSError) as err:
         first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
         raise InputError(f"cannot read input {path}: {first}",

@@ -22,6 +22,7 @@ import polars as pl
 from curate.errors import UsageError, first_ids
 from curate.io.folder import run_folder
 from curate.io.outputs import Claim, claim_output
+from curate.io.spreadsheet import original_text, spreadsheet_safe
 
 __all__ = ["DECISIONS", "claim_csv", "protected_ids", "review_table", "write_review"]
 
@@ -110,6 +111,9 @@ def _records(audit: pl.DataFrame, action: str | pl.Series, rows: pl.DataFrame) -
 def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -> int:
     """Write :func:`review_table` of ``run`` to the CSV file ``out``; return its row count.
 
+    Text cells that a spreadsheet would run as a formula get a leading quote
+    (:mod:`curate.io.spreadsheet`); :func:`protected_ids` takes it off again.
+
     Examples
     --------
     >>> write_review("no/such/run", "review.csv")
@@ -121,7 +125,7 @@ def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -
     run_folder(run)
     with claim_csv(Path(out), overwrite, [Path(run)], ("row_id", "decision")) as claim:
         table = review_table(run)
-        claim.write_file(table.write_csv, int(table.estimated_size()))
+        claim.write_file(spreadsheet_safe(table).write_csv, int(table.estimated_size()))
     return table.height
 
 
@@ -174,7 +178,8 @@ def protected_ids(path: str | Path) -> list[str]:
         raise UsageError(f"protect file {path} does not exist",
                          hint="give the CSV that `curate review` wrote (marked keep), or a file "
                               "of row ids one per line")
-    text = path.read_text(encoding="utf-8-sig")
+    with open(path, encoding="utf-8-sig", newline="") as handle:  # a quoted cell may hold \r
+        text = handle.read()
     header = next((line for line in text.splitlines() if line.strip()), "")
     sep = _separator(header)
     if sep is None:
@@ -182,7 +187,7 @@ def protected_ids(path: str | Path) -> list[str]:
                if line.strip() and not line.lstrip().startswith("#")]
         return list(dict.fromkeys(ids))
     table = pl.read_csv(text.encode(), separator=sep, infer_schema=False)
-    return _kept_by_reviewer(table, path)
+    return _kept_by_reviewer(table.with_columns(original_text(pl.all())), path)
 
 
 def _kept_by_reviewer(table: pl.DataFrame, path: Path) -> list[str]:
@@ -200,7 +205,8 @@ def _kept_by_reviewer(table: pl.DataFrame, path: Path) -> list[str]:
                          f"keep, remove or empty, on {first_ids(rows['row_id'].to_list())}",
                          hint="write keep to protect a row; leave the cell empty (or remove) "
                               "otherwise")
-    ids = table.filter(decision == "keep")["row_id"].str.strip_chars()
+    # Spaces a reviewer typed go; tabs and carriage returns may belong to an id.
+    ids = table.filter(decision == "keep")["row_id"].str.strip_chars(" ")
     if ids.is_null().any() or (ids == "").any():
         raise UsageError(f"protect file {path}: a row marked keep has no row_id",
                          hint="fill in the row_id of every row marked keep")

@@ -2,11 +2,8 @@
 
 from __future__ import annotations
 
-import importlib
-import importlib.util
-import sys
+from collections.abc import Collection
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -14,9 +11,12 @@ import pandera.polars as pa
 import polars as pl
 
 from curate.errors import InputError, PipelineFileError, SchemaFailure, first_ids
+from curate.io import suspect
+from curate.io.trust import import_schema_module
 from curate.settings import ColumnRule, InputSettings
 
-__all__ = ["Validation", "feature_kinds", "load_model", "rules_schema", "validate"]
+__all__ = ["Validation", "describe_failures", "feature_kinds", "load_model", "rules_schema",
+           "validate"]
 
 _DTYPES = {"float": pl.Float64, "int": pl.Int64, "category": pl.String, "string": pl.String,
            "bool": pl.Boolean}
@@ -37,29 +37,24 @@ class Validation:
 
 
 def load_model(ref: str) -> pa.DataFrameSchema:
-    """Load a pandera model or schema from ``path/to/file.py:Name`` or ``package.module:Name``."""
+    """Load a pandera model or schema from ``path/to/file.py:Name`` or ``package.module:Name``.
+
+    Whether the pipeline file may name that module is decided before, when the
+    file is read (:mod:`curate.io.trust`); here it is imported, with clean errors.
+    """
     module_ref, _, name = ref.rpartition(":")
-    try:
-        if module_ref.endswith(".py"):
-            path = Path(module_ref)
-            if not path.is_file():
-                raise PipelineFileError(f"schema file {path} does not exist",
-                                        hint="fix [input] schema = \"path/to/file.py:ClassName\"")
-            spec = importlib.util.spec_from_file_location(f"curate_schema_{path.stem}", path)
-            assert spec is not None and spec.loader is not None
-            module = importlib.util.module_from_spec(spec)
-            sys.modules[spec.name] = module
-            spec.loader.exec_module(module)
-        else:
-            module = importlib.import_module(module_ref)
-    except ImportError as err:
-        raise PipelineFileError(f"cannot import schema module {module_ref!r}: {err}",
-                                hint="fix [input] schema, or the import inside that file") from None
+    module = import_schema_module(module_ref)
     model = getattr(module, name, None)
     if model is None:
         raise PipelineFileError(f"schema module {module_ref!r} has no {name!r}",
                                 hint="fix the class name after the colon in [input] schema")
-    schema = model.to_schema() if hasattr(model, "to_schema") else model
+    try:
+        schema = model.to_schema() if hasattr(model, "to_schema") else model
+    except Exception as err:  # pandera checks the model's fields here, and user code runs
+        raise PipelineFileError(f"schema {ref} cannot be turned into a pandera schema: "
+                                f"{type(err).__name__}: {err}",
+                                hint="fix the model's fields (see pandera's DataFrameModel "
+                                     "documentation)") from None
     if not isinstance(schema, pa.DataFrameSchema):
         raise PipelineFileError(f"{ref} is not a pandera polars model or schema",
                                 hint="subclass pandera.polars.DataFrameModel")
@@ -84,6 +79,7 @@ def rules_schema(settings: InputSettings) -> pa.DataFrameSchema:
 
     Examples
     --------
+    >>> from pathlib import Path
     >>> from curate.settings import InputSettings, ColumnRule
     >>> s = rules_schema(InputSettings(Path("x.csv"), "y", columns=(ColumnRule("a", "float", 0, 1),)))
     >>> sorted(s.columns)
@@ -151,14 +147,32 @@ def _failure_table(err: pa.errors.SchemaErrors) -> pl.DataFrame:
     )
 
 
-def _describe(failures: pl.DataFrame, ids: list[Any]) -> str:
+def describe_failures(failures: pl.DataFrame, ids: list[Any], ruled: Collection[str] = ()) -> str:
+    """One line per column and failed check, naming the first rows and their count.
+
+    ``failures`` is a failure table (``position``, ``column``, ``check``,
+    ``value``); ``ids`` are the row ids by input position. A ``not_nullable``
+    failure of a column in ``ruled`` (columns with rules in the pipeline file)
+    says that those rules forbid gaps unless they say otherwise.
+
+    Examples
+    --------
+    >>> table = pl.DataFrame({"position": [3, 7], "column": ["depth", "depth"],
+    ...                       "check": ["not_nullable"] * 2, "value": [None, None]})
+    >>> print(describe_failures(table, list(range(10, 20)), ruled={"depth"}))
+    ... # doctest: +ELLIPSIS
+      column 'depth' failed not_nullable: 2 rows (first: 13, 17) (column rules default to nullable...)
+    """
     lines = []
     grouped = failures.group_by(["column", "check"], maintain_order=True).agg(pl.col("position"))
     for column, check, positions in grouped.iter_rows():
         where = f"column {column!r}" if column else "table"
         rows = [ids[p] for p in positions if p is not None]
         spot = first_ids(rows) if rows else "the whole column"
-        lines.append(f"  {where} failed {check}: {spot}")
+        note = (f" (column rules default to nullable = false; write nullable = true in "
+                f"[input.columns.{column}] to allow gaps)"
+                if check == "not_nullable" and column in ruled else "")
+        lines.append(f"  {where} failed {check}: {spot}{note}")
     return "\n".join(lines)
 
 
@@ -173,14 +187,59 @@ def _run(schema: pa.DataFrameSchema, frame: pl.DataFrame) -> tuple[pl.DataFrame 
                                    "column": pl.String, "check": pl.String, "value": pl.String})
 
 
+def _numeric_candidates(frame: pl.DataFrame, settings: InputSettings,
+                        schema: pa.DataFrameSchema) -> list[str]:
+    """Feature columns whose type nobody declared: where stray text must be looked for."""
+    skip = {settings.label, settings.id, *settings.ignore}
+    typed = {name for name, col in schema.columns.items() if col.dtype is not None}
+    names = settings.features if settings.features is not None else frame.columns
+    return [c for c in names if c in frame.columns and c not in skip and c not in typed]
+
+
+def _stray_cells(frame: pl.DataFrame, settings: InputSettings, schema: pa.DataFrameSchema,
+                 ids: list[Any]) -> tuple[pl.DataFrame, pl.DataFrame]:
+    """Find stray text in numeric columns: stop, or read those columns as numbers.
+
+    Returns the frame to check (such columns as numbers) and the stray cells,
+    each a row-level failure to quarantine.
+    """
+    stray = suspect.stray_text(frame, _numeric_candidates(frame, settings, schema))
+    if stray.height == 0:
+        return frame, stray
+    if settings.on_invalid == "stop":
+        raise SchemaFailure(suspect.describe_stray(stray, ids, str(settings.path)),
+                            hint="fix those cells (a number, or empty for a missing value); or "
+                                 "set on_invalid = \"quarantine\" in [input] to set those rows "
+                                 "aside; or, if the column is text, declare it: "
+                                 "[input.columns.NAME] type = \"category\"",
+                            failures=stray)
+    return suspect.as_numbers(frame, stray), stray
+
+
+def _run_on(schema: pa.DataFrameSchema, frame: pl.DataFrame,
+            rows: np.ndarray) -> tuple[pl.DataFrame | None, pl.DataFrame]:
+    """:func:`_run` on the rows ``rows`` of ``frame``, failure positions in ``frame``'s terms."""
+    if rows.all():
+        return _run(schema, frame)
+    checked, failures = _run(schema, frame.filter(pl.Series(rows)))
+    if failures.height:
+        where = np.flatnonzero(rows).astype(np.int64)
+        failures = failures.with_columns(pl.lit(pl.Series(where)).gather(pl.col("position"))
+                                         .alias("position"))
+    return checked, failures
+
+
 def validate(frame: pl.DataFrame, settings: InputSettings, ids: list[Any]) -> Validation:
     """Check ``frame`` against the pipeline's schema, collecting every failure.
 
     Table-level failures (a missing column, a wrong type) always stop the run.
     Row-level failures stop it too unless ``on_invalid = "quarantine"``: then
     the failing rows are marked invalid and the rest is checked once more.
+    Stray text in an undeclared numeric column (see :mod:`curate.io.suspect`)
+    is a row-level failure of check ``parses_as_number``.
     """
     schema = rules_schema(settings)
+    ruled = {rule.name for rule in settings.columns}
     absent = [name for name, col in schema.columns.items()
               if name not in frame.columns and getattr(col, "required", True)]
     if absent:
@@ -188,31 +247,33 @@ def validate(frame: pl.DataFrame, settings: InputSettings, ids: list[Any]) -> Va
                             + ", ".join(repr(c) for c in absent) + " (check column_in_dataframe)",
                             hint="fix the input's header, or the column rules / schema model; "
                                  f"the input has: {', '.join(frame.columns[:12])}")
-    checked, failures = _run(schema, frame)
+    frame, stray = _stray_cells(frame, settings, schema, ids)
+    first = np.ones(frame.height, dtype=bool)
+    first[stray["position"].to_numpy()] = False
+    checked, failures = _run_on(schema, frame, first)
     if checked is not None:
-        return Validation(np.ones(frame.height, dtype=bool), failures, checked)
+        return Validation(first, stray, checked)
     table_level = failures.filter(pl.col("position").is_null())
-    row_level = failures.filter(pl.col("position").is_not_null())
+    row_level = pl.concat([stray, failures.filter(pl.col("position").is_not_null())])
     coerce_columns = set(row_level.filter(pl.col("check").str.contains("coerce"))["column"].to_list())
     table_level = table_level.filter(~(pl.col("column").is_in(list(coerce_columns))
                                        & pl.col("check").str.starts_with("dtype")))
     if table_level.height or settings.on_invalid == "stop":
         shown = failures if settings.on_invalid == "stop" else table_level
-        raise SchemaFailure(f"input {settings.path} failed its schema:\n{_describe(shown, ids)}",
+        raise SchemaFailure(f"input {settings.path} failed its schema:\n"
+                            f"{describe_failures(shown, ids, ruled)}",
                             hint="fix the input, or the rules in the pipeline file; for bad rows "
                                  "only, on_invalid = \"quarantine\" in [input] sets them aside",
                             failures=shown)
-    valid = np.ones(frame.height, dtype=bool)
+    valid = first.copy()
     valid[row_level["position"].unique().to_numpy()] = False
     if not valid.any():
         raise SchemaFailure(f"input {settings.path}: every row failed its schema:\n"
-                            f"{_describe(row_level, ids)}", hint="fix the input or the rules",
+                            f"{describe_failures(row_level, ids, ruled)}", hint="fix the input or the rules",
                             failures=row_level)
-    rest = frame.filter(pl.Series(valid))
-    checked, again = _run(schema, rest)
+    checked, again = _run_on(schema, frame, valid)
     if checked is None:
-        rest_ids = [i for i, ok in zip(ids, valid, strict=True) if ok]
         raise SchemaFailure(f"input {settings.path} still fails its schema after quarantine:\n"
-                            f"{_describe(again, rest_ids)}", hint="fix the input or the rules",
+                            f"{describe_failures(again, ids, ruled)}", hint="fix the input or the rules",
                             failures=again)
-    return Validation(valid, row_level, checked)
+    return Validation(valid, row_level.sort("position", maintain_order=True), checked)

@@ -25,6 +25,7 @@ from curate.methods.hybrid import DROP3, ICF
 from curate.methods.noise import CLASS_THRESHOLDS, COMMITTEE, IPF
 from curate.methods.one_sided import OSS
 from curate.methods.scores import HARDNESS
+from curate.settings import FAULT_KINDS
 
 __all__ = ["METHODS", "MethodInfo", "Selection", "register"]
 
@@ -50,6 +51,9 @@ def register(*infos: MethodInfo) -> dict[str, MethodInfo]:
             raise ValueError(f"method key {info.key!r} is declared twice")
         if not info.reasons:
             raise ValueError(f"method {info.key!r} declares no reason codes")
+        unknown = sorted(set(info.catches) - set(FAULT_KINDS))
+        if unknown:
+            raise ValueError(f"method {info.key!r} is meant to catch unknown fault kinds {unknown}")
         for param in info.params:
             if param.default is not None and param.problem(param.default) is not None:
                 raise ValueError(f"method {info.key!r}: the default of {param.name!r} is not "

@@ -29,8 +29,8 @@ carries the row's label.
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
 
+from curate.neighbours.jit import compiled
 from curate.neighbours.search import kneighbors
 from curate.space.points import Space
 
@@ -39,7 +39,7 @@ __all__ = ["LIST_LENGTH", "NearestStore"]
 LIST_LENGTH = 16  # neighbours listed per row: long enough that few rows ever need a scan
 
 
-@njit(cache=True)
+@compiled()
 def _scan(x, store_x, ids, start, stop, best, near, manhattan):  # pragma: no cover - compiled
     """Nearest of the store rows ``start:stop`` to ``x``, starting from the known (best, near)."""
     for t in range(start, stop):
@@ -57,7 +57,7 @@ def _scan(x, store_x, ids, start, stop, best, near, manhattan):  # pragma: no co
     return best, near
 
 
-@njit(cache=True)
+@compiled()
 def _bring_up_to_date(i, x, nbr, nbr_d, in_store, store_x, ids, size, best, near, seen,
                       manhattan):  # pragma: no cover - compiled
     """Make (best[i], near[i]) the nearest among the first ``size`` store members."""
@@ -74,7 +74,7 @@ def _bring_up_to_date(i, x, nbr, nbr_d, in_store, store_x, ids, size, best, near
     seen[i] = size
 
 
-@njit(cache=True)
+@compiled()
 def _hart_kernel(order, codes, x, nbr, nbr_d, in_store, store_x, ids, size, best, near, seen,
                  joined, manhattan):  # pragma: no cover - compiled
     passes = 0

@@ -6,13 +6,80 @@ instead of importing another family.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from curate.methods.base import SelectionBuilder
-from curate.neighbours.search import kneighbors
+from curate.neighbours.calls import recording
+from curate.neighbours.search import kneighbors, radius_neighbors
 from curate.space.points import Space
 
-__all__ = ["add_vote_records", "describe_votes", "enn_pass", "misclassified", "vote_counts"]
+__all__ = ["add_vote_records", "describe_votes", "enn_pass", "misclassified", "tie_notes",
+           "vote_counts"]
+
+
+def _ordinal(n: int) -> str:
+    """1st, 2nd, 3rd, 4th, ..., 11th, 12th, 13th, 21st, ...
+
+    Examples
+    --------
+    >>> [_ordinal(n) for n in (1, 2, 3, 4, 11, 12, 13, 21, 22)]
+    ['1st', '2nd', '3rd', '4th', '11th', '12th', '13th', '21st', '22nd']
+    """
+    end = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{n}{end}"
+
+
+def tie_notes(space: Space, positions: np.ndarray, distances: np.ndarray,
+              reference: np.ndarray | None = None) -> list[str]:
+    """Say, for each row, when rows outside its k nearest lie at its k-th neighbour's distance.
+
+    ``distances`` holds the rows' k neighbour distances (one line per row of
+    ``positions``), found among ``reference`` (every row when None) with the
+    row itself left out. Ties in distance are broken by input position, so a
+    row whose k-th neighbour is tied with rows outside its list was judged by
+    the first of them; the note says how many others there were. The check
+    is cheap: one search for the (k+1)-th neighbour of these rows only, and a
+    radius count at the k-th distance only for rows where the two are equal.
+    Both are exact (also in a stage that uses the approximate engine) and stay
+    out of the stage's engine summary, since they only word the evidence.
+
+    Examples
+    --------
+    Row 0 has rows 1, 2 and 3 at distance 1 and a vote of k = 1:
+
+    >>> s = Space.from_matrix([[0.0, 0.0], [1.0, 0.0], [0.0, 1.0], [-1.0, 0.0], [5.0, 6.0]])
+    >>> tie_notes(s, np.array([0, 4]), np.array([[1.0], [np.sqrt(50.0)]]))
+    ['; its nearest neighbour is tied with 2 other rows at distance 1; the first by input \
+position was used', '']
+    """
+    positions = np.asarray(positions, dtype=np.int64)
+    notes = [""] * len(positions)
+    k = distances.shape[1] if distances.ndim == 2 else 0
+    size = space.n if reference is None else len(reference)
+    if len(positions) == 0 or k == 0 or size - 1 <= k:
+        return notes
+    if space.engine.backend == "approximate":
+        space = replace(space, engine=replace(space.engine, backend="auto"))  # exact facts
+    # These searches only word the evidence: they stay out of the stage's engine summary.
+    with recording():
+        wider, _ = kneighbors(space, k + 1, queries=positions, reference=reference)
+        kth = wider[:, k - 1]
+        # Where an approximate search listed another k-th distance, the exact tie is not its.
+        tied = np.flatnonzero((wider[:, k] <= kth) & (kth == distances[:, k - 1]))
+        counted = [(group, radius_neighbors(space, float(radius), queries=positions[group],
+                                            reference=reference)[1])
+                   for radius in np.unique(kth[tied]) for group in [tied[kth[tied] == radius]]]
+    for group, found_lists in counted:
+        radius = float(kth[group[0]])
+        for i, found in zip(group, found_lists, strict=True):
+            others = max(len(found), k + 1) - k
+            which = "its nearest neighbour" if k == 1 else f"its {_ordinal(k)} nearest neighbour"
+            notes[i] = (f"; {which} is tied with {others} other row{'' if others == 1 else 's'} "
+                        f"at distance {radius:.4g}; the first by input position "
+                        f"{'was' if k == 1 else 'were'} used")
+    return notes
 
 
 def vote_counts(codes: np.ndarray, neighbour_pos: np.ndarray, n_classes: int) -> np.ndarray:
@@ -92,8 +159,13 @@ def enn_pass(space: Space, codes: np.ndarray, k: int, vote: str,
 
 def add_vote_records(out: SelectionBuilder, positions: np.ndarray, rows: np.ndarray, codes: np.ndarray,
                      names: np.ndarray, nbr: np.ndarray, dist: np.ndarray, *,
-                     step: int = 1, suffix: str = "") -> None:
+                     step: int = 1, suffix: str = "", space: Space | None = None,
+                     reference: np.ndarray | None = None) -> None:
     """Record ``positions`` as outvoted; ``rows`` index their lines in ``nbr``/``dist``.
+
+    With ``space`` (and the ``reference`` rows the neighbours were found
+    among), each detail also says when the k-th neighbour was tied with rows
+    outside the vote (see :func:`tie_notes`).
 
     Examples
     --------
@@ -103,8 +175,11 @@ def add_vote_records(out: SelectionBuilder, positions: np.ndarray, rows: np.ndar
     >>> out.selection().detail
     ["2 of its 2 nearest neighbours are labelled 'ok', none 'worn' (its own label)"]
     """
-    for pos, row in zip(positions, rows, strict=True):
+    notes = ([""] * len(positions) if space is None else
+             tie_notes(space, np.asarray(positions), dist[np.asarray(rows, dtype=np.int64)],
+                       reference))
+    for pos, row, note in zip(positions, rows, notes, strict=True):
         counts = np.bincount(codes[nbr[row]], minlength=len(names))
         out.add(int(pos), "knn-disagrees",
-                describe_votes(counts, names, int(codes[pos])) + suffix,
+                describe_votes(counts, names, int(codes[pos])) + note + suffix,
                 neighbours=nbr[row], distances=dist[row], step=step)

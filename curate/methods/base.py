@@ -29,7 +29,9 @@ class MethodInfo:
     ``compares_classes`` (its input needs two or more classes, and every class
     more rows than ``k``), ``runs_partitioned`` (on a cluster it runs per
     stratified partition, then over their union, instead of sending its
-    neighbour queries to the workers).
+    neighbour queries to the workers). ``catches`` names the kinds of fault
+    (:data:`curate.settings.FAULT_KINDS`) the method is meant to find, against
+    which `curate evaluate --truth` scores its recall.
     """
 
     key: str
@@ -43,6 +45,38 @@ class MethodInfo:
     uses_neighbours: bool = True
     compares_classes: bool = False
     runs_partitioned: bool = False
+    catches: tuple[str, ...] = ()
+
+    def default_limit(self) -> tuple[float, bool]:
+        """The safety limit of a stage whose pipeline file sets no ``max_removed_share``.
+
+        Returns ``(max_removed_share, keep_every_class)``. Condensing and hybrid
+        methods remove most rows by design: a class may shrink to any share,
+        but never vanish. Every other method may remove at most half of a class.
+
+        Examples
+        --------
+        >>> from curate.methods import METHODS
+        >>> METHODS["fcnn"].default_limit(), METHODS["enn"].default_limit()
+        ((1.0, True), (0.5, False))
+        """
+        if self.family in ("condensing", "hybrid"):
+            return 1.0, True
+        return 0.5, False
+
+    def limit_text(self) -> str:
+        """The default safety limit in words, for `curate methods`.
+
+        Examples
+        --------
+        >>> from curate.methods import METHODS
+        >>> METHODS["enn"].limit_text()
+        'at most 50% of each class (max_removed_share = 0.5)'
+        """
+        share, keep = self.default_limit()
+        if keep:
+            return "any share of a class, but every class keeps at least one row"
+        return f"at most {share:.0%} of each class (max_removed_share = {share:g})"
 
     def defaults(self) -> dict[str, Any]:
         """Return the default of every parameter."""

@@ -10,8 +10,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from curate.errors import counted
 from curate.methods._neighbourhood import interest_class, tomek_links
-from curate.methods._votes import add_vote_records, misclassified, vote_counts
+from curate.methods._votes import add_vote_records, misclassified, tie_notes, vote_counts
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, require_neighbours
 from curate.settings import Param
@@ -24,7 +25,7 @@ TOMEK_LINKS = MethodInfo(
     key="tomek-links", name="Tomek links", family="editing", reference="Tomek 1976",
     purpose="clean class borders: remove pairs of rows from different classes that are "
             "each other's nearest neighbour",
-    compares_classes=True,
+    compares_classes=True, catches=("label-flip",),
     func=tomek_links,
     params=(Param("remove", str, "both", "both: every member of a link that the stage may "
                   "remove; larger: only the member from the larger class",
@@ -98,19 +99,22 @@ def ncr(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     a2[list(crowd)] = True
     out = SelectionBuilder(space.n)
     label = repr(str(names[target]))
+    outvoted = np.flatnonzero(a1)
+    ties = dict(zip(outvoted.tolist(), tie_notes(space, outvoted, dist[outvoted]), strict=True))
     for i in np.flatnonzero(a1 | (a2 & removable)):
         near = sorted(crowd.get(int(i), []), key=lambda pair: (pair[1], pair[0]))
         if a1[i]:
-            also = (f"; it is also among the {k} nearest neighbours of {len(near)} outvoted "
-                    f"{label} row(s)") if near else ""
+            also = (f"; it is also among the {counted(k, 'nearest neighbour')} of "
+                    f"{len(near)} outvoted {label} {'row' if len(near) == 1 else 'rows'}"
+                    ) if near else ""
             add_vote_records(out, np.array([i]), np.array([i]), codes, names, nbr, dist,
-                             suffix=also)
+                             suffix=ties[int(i)] + also)
             continue
         mine = int(counts[near[0][0], target])
         out.add(int(i), "crowds-interest",
-                f"it is among the {k} nearest neighbours of {len(near)} {label} row(s) that "
-                f"their neighbours outvote (the nearest of them has {mine} of {k} votes "
-                f"for {label})",
+                f"it is among the {counted(k, 'nearest neighbour')} of "
+                f"{counted(len(near), label + ' row')} that their neighbours outvote (the "
+                f"nearest of them has {mine} of {k} votes for {label})",
                 neighbours=[c for c, _ in near], distances=[d for _, d in near])
     return out.selection(info={"interest": str(names[target]),
                                "cleaned_classes": [str(n) for n in names[cleanable]]})
@@ -121,7 +125,7 @@ NCR = MethodInfo(
     reference="Laurikkala 2001",
     purpose="sharpen a small class of interest: remove other-class rows that ENN outvotes "
             "or that crowd its misclassified rows",
-    compares_classes=True,
+    compares_classes=True, catches=("label-flip",),
     func=ncr,
     params=(
         Param("k", int, 3, "neighbours that vote and that are cleaned", low=1),

@@ -21,7 +21,7 @@ import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-from curate.errors import UsageError
+from curate.errors import UsageError, counted
 from curate.methods._neighbourhood import nearest_enemy
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, radius_neighbors
@@ -129,7 +129,7 @@ EXACT = MethodInfo(
     key="exact-duplicates", name="exact duplicates", family="duplicates",
     reference="common practice",
     purpose="drop re-sent rows: equal feature values and equal label; keeps the first",
-    func=exact_duplicates, params=(), uses_neighbours=False,
+    func=exact_duplicates, params=(), uses_neighbours=False, catches=("re-sent",),
     reasons={"exact-copy": "same feature values and label as an earlier, kept row"},
 )
 
@@ -138,7 +138,7 @@ CONFLICTING = MethodInfo(
     reference="common practice",
     purpose="rows with equal feature values but different labels: drop, resolve by majority, "
             "or report",
-    func=conflicting_duplicates, uses_neighbours=False,
+    func=conflicting_duplicates, uses_neighbours=False, catches=("conflict",),
     params=(Param("policy", str, "drop-all", "what to do with a conflicting group",
                   choices=("drop-all", "keep-majority", "report")),),
     reasons={
@@ -230,7 +230,8 @@ def near_duplicates(space: Space, labels: np.ndarray, *, removable: np.ndarray, 
             for i in g[removable[g]]:
                 other = codes[nbr[i]] != codes[i]
                 out.add(int(i), "near-conflict",
-                        f"{int(other.sum())} rows with another label lie within the radius",
+                        f"{counted(int(other.sum()), 'row')} with another label "
+                        f"{'lies' if other.sum() == 1 else 'lie'} within the radius",
                         neighbours=nbr[i][other], distances=dist[i][other])
                 alive[i] = False
     dropped = len(out)
@@ -295,7 +296,7 @@ NEAR = MethodInfo(
     reference="common practice",
     purpose="drop same-label rows within a radius of a kept row (jittered re-sends); "
             "report or drop rows within the radius of another label",
-    func=near_duplicates,
+    func=near_duplicates, catches=("re-sent", "near-copy"),
     params=(
         Param("radius", float, None, "distance in the normalised space within which rows of "
               "the same label are copies", check=lambda v: v > 0,

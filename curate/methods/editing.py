@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from curate.methods._votes import add_vote_records, enn_pass, misclassified
+from curate.methods._votes import add_vote_records, enn_pass, misclassified, tie_notes
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, require_neighbours
 from curate.settings import Param
@@ -38,7 +38,7 @@ def enn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int = 
     wrong, dist, nbr = enn_pass(space, codes, k, vote)
     out = SelectionBuilder(space.n)
     rows = np.flatnonzero(wrong & removable)
-    add_vote_records(out, rows, rows, codes, names, nbr, dist)
+    add_vote_records(out, rows, rows, codes, names, nbr, dist, space=space)
     return out.selection()
 
 
@@ -52,7 +52,7 @@ ENN = MethodInfo(
     key="enn", name="Edited Nearest Neighbours (ENN)", family="editing",
     reference="Wilson 1972",
     purpose="remove likely mislabels: rows their k nearest neighbours vote against",
-    compares_classes=True,
+    compares_classes=True, catches=("label-flip",),
     func=enn,
     params=(_K, _VOTE),
     reasons=_OUTVOTED,
@@ -108,7 +108,7 @@ def renn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int =
             stopped = "no change"
             break
         add_vote_records(out, active[going], going, codes, names, nbr, dist, step=rounds,
-                         suffix=f"; removed in round {rounds}")
+                         suffix=f"; removed in round {rounds}", space=space, reference=active)
         active = np.delete(active, going)
     return out.selection(info={"rounds": rounds, "stopped": stopped})
 
@@ -118,7 +118,7 @@ RENN = MethodInfo(
     reference="Tomek 1976",
     purpose="remove likely mislabels more thoroughly than ENN: repeat ENN on the rows left "
             "until nothing changes",
-    compares_classes=True,
+    compares_classes=True, catches=("label-flip",),
     func=renn,
     params=(_K, _VOTE,
             Param("max_rounds", int, 100, "stop after this many rounds even if rows still go",
@@ -168,10 +168,15 @@ def all_knn(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: in
         np.add.at(counts, (rows, codes[nbr[:, j - 1]]), 1)
         first[misclassified(counts, codes, vote) & removable & (first == 0)] = j
     out = SelectionBuilder(space.n)
-    for i in np.flatnonzero(first):
+    going = np.flatnonzero(first)
+    notes = dict.fromkeys(going.tolist(), "")
+    for j in np.unique(first[going]).tolist():
+        at = going[first[going] == j]
+        notes.update(zip(at.tolist(), tie_notes(space, at, dist[at, :j]), strict=True))
+    for i in going:
         j = int(first[i])
         add_vote_records(out, np.array([i]), np.array([0]), codes, names,
-                         nbr[i:i + 1, :j], dist[i:i + 1, :j], step=j)
+                         nbr[i:i + 1, :j], dist[i:i + 1, :j], step=j, suffix=notes[int(i)])
     return out.selection()
 
 
@@ -179,7 +184,7 @@ ALL_KNN = MethodInfo(
     key="all-knn", name="All k-NN", family="editing", reference="Tomek 1976",
     purpose="remove likely mislabels that the vote of any neighbourhood size up to k "
             "gets wrong",
-    compares_classes=True,
+    compares_classes=True, catches=("label-flip",),
     func=all_knn,
     params=(Param("k", int, 3, "the largest number of neighbours that vote", low=1), _VOTE),
     reasons=_OUTVOTED,

@@ -10,8 +10,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from curate.errors import counted
 from curate.methods._neighbourhood import nearest_enemy
-from curate.methods._votes import describe_votes, enn_pass
+from curate.methods._votes import describe_votes, enn_pass, tie_notes
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, require_neighbours
 from curate.settings import Param
@@ -119,9 +120,11 @@ def _noise_pass(space: Space, codes: np.ndarray, names: np.ndarray, k: int,
     """One ENN pass among ``active`` rows; record removals; return the removed positions."""
     wrong, dist, nbr = enn_pass(space, codes, k, "majority", active=active)
     gone = np.flatnonzero(wrong & removable[active])
-    for i in gone:
+    notes = tie_notes(space, active[gone], dist[gone], reference=active)
+    for i, note in zip(gone, notes, strict=True):
         counts = np.bincount(codes[nbr[i]], minlength=len(names))
-        out.add(int(active[i]), "noise", describe_votes(counts, names, int(codes[active[i]])),
+        out.add(int(active[i]), "noise",
+                describe_votes(counts, names, int(codes[active[i]])) + note,
                 neighbours=nbr[i], distances=dist[i], step=step)
     return active[gone]
 
@@ -174,8 +177,9 @@ def drop3(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: int 
             continue
         lists.remove(int(p), assoc)
         out.add(int(p), "associates",
-                f"of its {len(group)} associates, {without_p} are classified correctly "
-                f"without it and {with_p} with it", neighbours=group,
+                f"of its {counted(len(group), 'associate')}, {without_p} "
+                f"{'is' if without_p == 1 else 'are'} classified correctly without it and "
+                f"{with_p} with it", neighbours=group,
                 distances=space.distances([p], group)[0] if group else [], step=visit)
     return out.selection(info={"noise_removed": len(noise),
                                "associates_removed": len(out) - len(noise)})

@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from curate.errors import counted
+from curate.methods._votes import tie_notes
 from curate.methods.base import MethodInfo, Selection, SelectionBuilder, encode
 from curate.neighbours.search import kneighbors, require_neighbours
 from curate.settings import Param
@@ -54,11 +56,13 @@ def hardness(space: Space, labels: np.ndarray, *, removable: np.ndarray, seed: i
     scores, dist, nbr = kdn_scores(space, codes, k)
     out = SelectionBuilder(space.n)
     if threshold is not None:
-        for i in np.flatnonzero((scores >= threshold) & removable):
+        hard = np.flatnonzero((scores >= threshold) & removable)
+        for i, note in zip(hard, tie_notes(space, hard, dist[hard]), strict=True):
             other = int(round(scores[i] * k))
             out.add(int(i), "hard",
-                    f"{other} of its {k} nearest neighbours have another label "
-                    f"(kDN {scores[i]:.3g} >= threshold {threshold:g})",
+                    f"{other} of its {counted(k, 'nearest neighbour')} "
+                    f"{'has' if other == 1 else 'have'} another label "
+                    f"(kDN {scores[i]:.3g} >= threshold {threshold:g}){note}",
                     neighbours=nbr[i], distances=dist[i])
     sel = out.selection(info={"k": k, "threshold": threshold,
                               "mean_hardness": float(scores.mean()) if space.n else 0.0})
@@ -71,7 +75,7 @@ HARDNESS = MethodInfo(
     reference="Smith, Martinez and Giraud-Carrier 2014",
     purpose="score each row by the share of its k nearest neighbours with another label; "
             "optionally remove rows at or above a threshold",
-    func=hardness,
+    func=hardness, catches=("label-flip",),
     params=(
         Param("k", int, 5, "neighbours that are compared with the row's label", low=1),
         Param("threshold", float, None, "remove rows whose kDN is at least this (none: score "

@@ -29,12 +29,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numba
 import numpy as np
 from threadpoolctl import threadpool_limits
 
 from curate.neighbours._exact import exact_pairs
 from curate.neighbours._plan import Plan, Request, run_tasks
+from curate.neighbours.jit import compiled
 
 __all__ = ["INDEX_SEED", "RECALL_TARGET", "Recall", "approximate_kneighbors", "measure_recall"]
 
@@ -110,7 +110,7 @@ def _nearest_centres(rows: np.ndarray, centres: np.ndarray, count: int, plan: Pl
     return out
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def _group(cells, probes, lists):  # pragma: no cover - compiled
     """Queries grouped by cell (a counting sort): ``who[starts[c]:starts[c + 1]]`` probe c."""
     starts = np.zeros(lists + 1, dtype=np.int64)
@@ -166,7 +166,7 @@ def _build(req: Request, plan: Plan) -> _Index:
     return _Index(centres, offsets.astype(np.int64), packed, members.astype(np.int64), mean)
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def _update(values, who, members, own, best_v, best_i):  # pragma: no cover - compiled
     """Fold one cell's values into the candidate lists of the queries ``who``.
 

@@ -9,13 +9,14 @@ values that the reference computation gives, and ties are exact ties.
 
 from __future__ import annotations
 
-import numba
 import numpy as np
+
+from curate.neighbours.jit import compiled
 
 __all__ = ["exact_pairs", "rank_pairs", "rerank_fixed"]
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@compiled(nogil=True, inline="always")
 def _direct(matrix: np.ndarray, a: int, b: int, manhattan: bool) -> float:
     s = 0.0
     for c in range(matrix.shape[1]):
@@ -27,7 +28,7 @@ def _direct(matrix: np.ndarray, a: int, b: int, manhattan: bool) -> float:
     return s if manhattan else np.sqrt(s)
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def _exact_pairs(matrix: np.ndarray, qpos: np.ndarray, rpos: np.ndarray,
                  manhattan: bool) -> np.ndarray:
     out = np.empty(len(qpos), dtype=np.float64)
@@ -49,7 +50,7 @@ def exact_pairs(matrix: np.ndarray, qpos: np.ndarray, rpos: np.ndarray, metric: 
                         metric == "manhattan")
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def _rerank(matrix: np.ndarray, qpos: np.ndarray, reference: np.ndarray, cand: np.ndarray,
             k: int, lower: np.ndarray, manhattan: bool, out_d: np.ndarray, out_i: np.ndarray,
             ok: np.ndarray) -> None:

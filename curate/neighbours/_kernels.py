@@ -9,13 +9,14 @@ Manhattan scans compute exact float64 distances themselves, tile by tile.
 
 from __future__ import annotations
 
-import numba
 import numpy as np
+
+from curate.neighbours.jit import compiled
 
 __all__ = ["collect_tile", "l1_collect", "l1_scan", "merge_lists", "scan_pair", "scan_tile"]
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@compiled(nogil=True, inline="always")
 def _insert(vals: np.ndarray, idx: np.ndarray, row: int, value: float, j: int) -> float:
     """Put ``(value, j)`` in place of the worst slot by (value, index); return the new worst."""
     width = vals.shape[1]
@@ -32,7 +33,7 @@ def _insert(vals: np.ndarray, idx: np.ndarray, row: int, value: float, j: int) -
     return top
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@compiled(nogil=True, inline="always")
 def _scan_row(values: np.ndarray, j0: int, own: int, row: int, vals: np.ndarray,
               idx: np.ndarray, thr: np.ndarray) -> None:
     t = thr[row]
@@ -48,7 +49,7 @@ def _scan_row(values: np.ndarray, j0: int, own: int, row: int, vals: np.ndarray,
     thr[row] = t
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def scan_tile(tile: np.ndarray, j0: int, own: np.ndarray, vals: np.ndarray, idx: np.ndarray,
               thr: np.ndarray) -> None:
     """Update each row's candidate buffer with one tile of values (column ``j`` is ``j0 + j``)."""
@@ -56,7 +57,7 @@ def scan_tile(tile: np.ndarray, j0: int, own: np.ndarray, vals: np.ndarray, idx:
         _scan_row(tile[row], j0, own[row], row, vals, idx, thr)
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def scan_pair(tile: np.ndarray, i0: int, j0: int, norms: np.ndarray, vals: np.ndarray,
               idx: np.ndarray, thr: np.ndarray, diagonal: bool) -> None:
     """One tile of a self-search, for both sides: rows ``i0 + r`` and columns ``j0 + j``.
@@ -96,7 +97,7 @@ def scan_pair(tile: np.ndarray, i0: int, j0: int, norms: np.ndarray, vals: np.nd
                     col_thr[j] = _insert(vals, idx, j0 + j, v, a)
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def merge_lists(vals: np.ndarray, idx: np.ndarray, thr: np.ndarray, other_vals: np.ndarray,
                 other_idx: np.ndarray) -> None:
     """Fold the other candidate lists into ``vals``/``idx`` (best by value, then index).
@@ -127,7 +128,7 @@ def merge_lists(vals: np.ndarray, idx: np.ndarray, thr: np.ndarray, other_vals: 
         thr[row] = top
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def collect_tile(tile: np.ndarray, j0: int, own: np.ndarray, thr: np.ndarray, row0: int,
                  out_r: np.ndarray, out_j: np.ndarray, count: int) -> int:
     """Append ``(row0 + row, j0 + j)`` for every value ``<= thr[row]``; -1 when out of room."""
@@ -149,7 +150,7 @@ def collect_tile(tile: np.ndarray, j0: int, own: np.ndarray, thr: np.ndarray, ro
     return count
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@compiled(nogil=True, inline="always")
 def _l1_row(matrix: np.ndarray, q: int, slab_t: np.ndarray, j0: int, nt: int,
             acc: np.ndarray) -> None:
     # Same order of operations as scipy's cityblock: a sequential sum over columns.
@@ -161,7 +162,7 @@ def _l1_row(matrix: np.ndarray, q: int, slab_t: np.ndarray, j0: int, nt: int,
             acc[j] += abs(qc - slab_t[c, j0 + j])
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def l1_scan(matrix: np.ndarray, qpos: np.ndarray, slab_t: np.ndarray, lo: int, own: np.ndarray,
             vals: np.ndarray, idx: np.ndarray, thr: np.ndarray, tile: int) -> None:
     """Exact Manhattan distances from ``qpos`` to a transposed slab, kept in the buffers."""
@@ -174,7 +175,7 @@ def l1_scan(matrix: np.ndarray, qpos: np.ndarray, slab_t: np.ndarray, lo: int, o
             _scan_row(acc[:nt], lo + j0, own[row], row, vals, idx, thr)
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def l1_collect(matrix: np.ndarray, qpos: np.ndarray, slab_t: np.ndarray, lo: int,
                own: np.ndarray, thr: np.ndarray, row0: int, tile: int, out_r: np.ndarray,
                out_j: np.ndarray, count: int) -> int:

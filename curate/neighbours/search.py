@@ -18,7 +18,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from curate.errors import NeighbourCountError, UsageError
+from curate.errors import NeighbourCountError, UsageError, counted
 from curate.neighbours._plan import Request, make_request
 from curate.neighbours.backends import TABLE, choose_backend, plan
 from curate.neighbours.calls import EngineCall, note
@@ -55,9 +55,9 @@ def require_neighbours(k: int, rows: int, *, exclude_self: bool = True, where: s
     available = max(0, rows - (1 if exclude_self else 0))
     if 1 <= k <= available:
         return
-    among = f" ({rows} rows, its own left out)" if exclude_self else ""
-    raise NeighbourCountError(f"{where}k = {k}: asked for {k} neighbours among {available} rows"
-                              f"{among}",
+    among = f" ({counted(rows, 'row')}, its own left out)" if exclude_self else ""
+    raise NeighbourCountError(f"{where}k = {k}: asked for {counted(k, 'neighbour')} among "
+                              f"{counted(available, 'row')}{among}",
                               hint=f"set k from 1 to {available}, or keep more rows in the stage"
                               if available else "keep two or more rows in the stage")
 

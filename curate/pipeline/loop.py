@@ -16,12 +16,12 @@ import numpy as np
 import polars as pl
 
 from curate.cluster.session import cluster_session
-from curate.errors import UsageError
+from curate.errors import UsageError, counted
 from curate.methods import METHODS
 from curate.methods.base import Selection
 from curate.neighbours.backends import choose_backend
 from curate.pipeline.audit import AuditLog
-from curate.pipeline.records import Prepared, RunResult, StageOutcome
+from curate.pipeline.records import SUGGESTED, Prepared, RunResult, StageOutcome
 from curate.pipeline.stage import check_folds, check_k, removable_rows, run_stage, run_step
 from curate.pipeline.summary import build_summary, doubt_summary
 from curate.settings import StageSettings
@@ -29,7 +29,6 @@ from curate.space.points import Space
 
 __all__ = ["SUGGESTED", "check_stages", "execute"]
 
-SUGGESTED = "suggested_label"  # the column a relabelling stage adds to kept.parquet
 
 
 def check_stages(prep: Prepared) -> None:
@@ -49,7 +48,7 @@ def _quarantine(prep: Prepared, audit: AuditLog) -> None:
         pl.col("column").first(), pl.col("check").first(), pl.col("value").first(), pl.len())
     first = first.sort("position")
     details = [f"failed check {check} on column {column!r} (value {value!r})"
-               + (f" and {n - 1} more checks" if n > 1 else "")
+               + (f" and {counted(n - 1, 'more check')}" if n > 1 else "")
                for _, column, check, value, n in first.iter_rows()]
     pos = first["position"].to_numpy().astype(np.int64)
     audit.add(stage="schema", method="schema", positions=pos, reason=["schema"] * len(pos),
@@ -126,7 +125,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     scores: dict[str, np.ndarray] = {}
     for number, stage in enumerate(prep.spec.stages, start=1):
         say(f"stage {number}/{len(prep.spec.stages)} {stage.name!r} ({stage.method}) "
-            f"on {len(active)} rows")
+            f"on {counted(len(active), 'row')}")
         t0 = time.perf_counter()
         sub = prep.space.subset(active)
         stage_labels = labels[active]
@@ -146,22 +145,22 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed_input,
                                      time.perf_counter() - t0))
         active = active[sel.kept]
-        say(f"  removed {len(sel.removed)} rows in {outcomes[-1].seconds:.2f} s")
+        say(f"  removed {counted(len(sel.removed), 'row')} in {outcomes[-1].seconds:.2f} s")
     kept_positions = prep.valid_positions[active]
     table = audit.frame()
-    kept, removed = _split(prep, kept_positions, scores, relabel)
-    _check_outputs(prep, kept, removed, table)
+    _check_outputs(prep, kept_positions, table)
     flagged = flags.frame(unique_ids=False).with_columns(pl.Series("action", actions,
                                                                    dtype=pl.String))
-    summary = build_summary(prep, outcomes, kept, removed, table, time.perf_counter() - started)
+    summary = build_summary(prep, outcomes, kept_positions, table, time.perf_counter() - started)
     summary["engine"].update(_engine_facts(prep, outcomes))
     summary["rows_flagged_kept"] = flagged.height
     if "doubt" in scores:
         summary["doubt"] = doubt_summary(scores["doubt"])
-    return RunResult(kept, removed, table, summary, prep, kept_positions, scores,
+    return RunResult(table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None,
                      flagged if any(s.params.get("action") in ("relabel", "report")
-                                    for s in prep.spec.stages) else None)
+                                    for s in prep.spec.stages) else None,
+                     relabel if _relabels(prep) else None)
 
 
 def _relabels(prep: Prepared) -> bool:
@@ -199,27 +198,12 @@ def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any
             "recall_sample": 0}
 
 
-def _split(prep: Prepared, kept_positions: np.ndarray, scores: dict[str, np.ndarray],
-           relabel: np.ndarray) -> tuple[pl.DataFrame, pl.DataFrame]:
+def _check_outputs(prep: Prepared, kept_positions: np.ndarray, audit: pl.DataFrame) -> None:
+    """The contract, checked before anything is written: kept and audited rows partition the input."""
     mask = np.zeros(prep.frame.height, dtype=bool)
     mask[kept_positions] = True
-    base = prep.frame.with_columns(prep.ids) if prep.spec.input.id != "row_id" else prep.frame
-    if prep.spec.output.scores:
-        base = base.with_columns([pl.Series(name, values) for name, values in scores.items()
-                                  if name not in base.columns])
-    if _relabels(prep):
-        base = base.with_columns(pl.Series(SUGGESTED, list(relabel), dtype=prep.labels.dtype,
-                                           strict=False))
-    keep = pl.Series(mask)
-    return base.filter(keep), base.filter(~keep)
-
-
-def _check_outputs(prep: Prepared, kept: pl.DataFrame, removed: pl.DataFrame,
-                   audit: pl.DataFrame) -> None:
-    """The contract, checked before anything is written."""
-    k, r = kept["row_id"], removed["row_id"]
-    if kept.height + removed.height != prep.frame.height or pl.concat([k, r]).n_unique() != \
-            prep.frame.height:
-        raise AssertionError("kept and removed rows do not partition the input")
-    if audit.height != removed.height or not audit["row_id"].sort().equals(r.sort()):
+    if int(mask.sum()) != len(kept_positions):
+        raise AssertionError("a row is kept twice")
+    removed = prep.ids.filter(pl.Series(~mask))
+    if audit.height != removed.len() or not audit["row_id"].sort().equals(removed.sort()):
         raise AssertionError("the audit does not have exactly one row per removed row")

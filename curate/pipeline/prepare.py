@@ -5,10 +5,11 @@ from __future__ import annotations
 import numpy as np
 import polars as pl
 
-from curate.errors import InputError, UsageError, first_ids
+from curate.errors import InputError, UsageError, first_ids, quoted
 from curate.io import schema as schema_mod
 from curate.io.read import read_input, row_ids
 from curate.io.review import protected_ids
+from curate.io.suspect import refuse_id_like
 from curate.methods import METHODS
 from curate.pipeline.records import Prepared
 from curate.settings import Spec
@@ -27,7 +28,7 @@ def _check_classes(spec: Spec, labels: np.ndarray) -> None:
     distinct = np.unique(labels)
     if needs_two and len(distinct) < 2:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} has one class "
-                         f"only ({distinct[0]!r}); stage {needs_two[0].name!r} compares classes",
+                         f"only ({quoted(distinct[0])}); stage {needs_two[0].name!r} compares classes",
                          hint="give a table with two or more classes, or drop the editing and "
                               "condensing stages")
 
@@ -62,6 +63,7 @@ def prepare(spec: Spec) -> Prepared:
     checked = validation.frame
     features = schema_mod.feature_columns(checked, spec.input)
     kinds = schema_mod.feature_kinds(checked, features, spec.input.columns)
+    refuse_id_like(checked, kinds, spec.input)
     labels = _labels_of_valid(checked, spec.input.label)
     _check_classes(spec, labels)
     valid_ids = ids.filter(pl.Series(validation.valid)).to_list()

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -14,6 +15,8 @@ from curate.space.points import Space
 
 __all__ = ["Prepared", "RunResult", "StageOutcome"]
 
+
+SUGGESTED = "suggested_label"  # the column a relabelling stage adds to kept.parquet
 
 @dataclass
 class Prepared:
@@ -40,15 +43,21 @@ class Prepared:
 
 @dataclass
 class RunResult:
-    """What a run produced: kept, removed and audit tables and the summary.
+    """What a run produced: the audit, the summary, and which input rows were kept.
+
+    ``kept`` and ``removed`` (the input's columns, untouched, plus ``row_id``
+    and score columns) are built from the input on first use only: a run that
+    just writes its folder streams them from the input in batches instead (see
+    :func:`curate.io.batches.write_rows`), so that no whole copy of the input
+    exists at the end of the run.
 
     ``spared`` records what stages would have removed of the protected rows;
     ``flagged`` (when a label-noise stage ran) records the rows such a stage
-    flagged but kept (``action`` relabel or report), with an ``action`` column.
+    flagged but kept (``action`` relabel or report), with an ``action`` column;
+    ``relabel`` holds, per input position, the label a relabelling stage
+    suggests (None elsewhere), written as the ``suggested_label`` column.
     """
 
-    kept: pl.DataFrame
-    removed: pl.DataFrame
     audit: pl.DataFrame
     summary: dict[str, Any]
     prepared: Prepared
@@ -56,6 +65,36 @@ class RunResult:
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     spared: pl.DataFrame | None = None
     flagged: pl.DataFrame | None = None
+    relabel: np.ndarray | None = None
+
+    @property
+    def kept_mask(self) -> np.ndarray:
+        """True at the input positions of the kept rows."""
+        mask = np.zeros(self.prepared.frame.height, dtype=bool)
+        mask[self.kept_positions] = True
+        return mask
+
+    def rows_frame(self) -> pl.DataFrame:
+        """The input with ``row_id`` and the score columns: kept and removed rows come from it."""
+        prep = self.prepared
+        base = prep.frame.with_columns(prep.ids) if prep.spec.input.id != "row_id" else prep.frame
+        if prep.spec.output.scores:
+            base = base.with_columns([pl.Series(name, values) for name, values
+                                      in self.scores.items() if name not in base.columns])
+        if self.relabel is not None:
+            base = base.with_columns(pl.Series(SUGGESTED, list(self.relabel),
+                                               dtype=prep.labels.dtype, strict=False))
+        return base
+
+    @cached_property
+    def kept(self) -> pl.DataFrame:
+        """The kept rows, in input order."""
+        return self.rows_frame().filter(pl.Series(self.kept_mask))
+
+    @cached_property
+    def removed(self) -> pl.DataFrame:
+        """The removed rows (quarantined ones included), in input order."""
+        return self.rows_frame().filter(~pl.Series(self.kept_mask))
 
 
 @dataclass

@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 
 from curate.cluster.stage import run_on_cluster
-from curate.errors import SafetyLimitError, UsageError, first_ids
+from curate.errors import SafetyLimitError, UsageError, counted, first_ids, quoted
 from curate.methods import METHODS
 from curate.methods.base import Selection
 from curate.neighbours.calls import recording, summarise_calls
@@ -23,8 +23,8 @@ from curate.neighbours.search import require_neighbours
 from curate.settings import StageSettings
 from curate.space.points import Space
 
-__all__ = ["Step", "check_folds", "check_k", "removable_rows", "run_stage", "run_step", "safety_breach",
-           "verify_partition"]
+__all__ = ["Step", "check_folds", "check_k", "looks_continuous", "removable_rows", "run_stage",
+           "run_step", "safety_breach", "verify_partition"]
 
 
 def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:
@@ -40,11 +40,36 @@ def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarr
         wanted = [str(c) for c in stage.classes]
         unknown = sorted(set(wanted) - set(text))
         if unknown:
-            raise UsageError(f"stage {stage.name!r}: classes {unknown} do not occur in its input",
+            raise UsageError(f"stage {stage.name!r}: classes {', '.join(map(quoted, unknown))} "
+                             "do not occur in its input",
                              hint=f"use labels that occur: {', '.join(sorted(set(text))[:10])}")
         mask = np.isin(text, wanted)
     mask[protected] = False
     return mask
+
+
+def looks_continuous(labels: np.ndarray) -> bool:
+    """Whether labels look like a measured quantity rather than classes.
+
+    True when every label reads as a number and there are ten or more distinct
+    values, some of them fractional or more than a quarter as many as rows
+    (common practice, no source: class codes are few and whole numbers).
+
+    Examples
+    --------
+    >>> looks_continuous(np.array([f"1.5{i}" for i in range(10)] * 3))
+    True
+    >>> looks_continuous(np.array([1, 2, 3, 1, 2, 3]))
+    False
+    """
+    try:
+        numbers = np.asarray(labels).astype(np.float64)
+    except (TypeError, ValueError):
+        return False
+    distinct = np.unique(numbers[np.isfinite(numbers)])
+    if len(distinct) < 10:
+        return False
+    return bool(np.any(distinct != np.round(distinct)) or len(distinct) * 4 > len(labels))
 
 
 def check_folds(stage: StageSettings, labels: np.ndarray) -> None:
@@ -69,37 +94,77 @@ def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> 
     if not isinstance(k, int):
         return
     require_neighbours(k, len(labels), where=f"stage {stage.name!r}: ")
-    values, counts = np.unique(labels[removable].astype(str), return_counts=True)
+    values = np.unique(labels[removable].astype(str))
     sizes = dict(zip(*np.unique(labels.astype(str), return_counts=True), strict=True))
     small = [str(v) for v in values if sizes[v] <= k]
-    if small and METHODS[stage.method].compares_classes:
-        raise UsageError(f"stage {stage.name!r}: k = {k} is not below the size of class "
-                         f"{small[0]!r} ({sizes[small[0]]} rows), so its rows cannot outvote "
-                         "their neighbours",
-                         hint=f"lower k below {sizes[small[0]]}, or keep that class out of reach "
-                              "with classes = \"all-but-smallest\" or a list of classes")
+    if not small or not METHODS[stage.method].compares_classes:
+        return
+    size = int(sizes[small[0]])
+    problem = (f"stage {stage.name!r}: k = {k} is not below the size of class {small[0]!r} "
+               f"({counted(size, 'row')}), so its rows cannot outvote their "
+               "neighbours")
+    reach = "keep that class out of reach with classes = \"all-but-smallest\" or a list of classes"
+    if looks_continuous(labels):
+        raise UsageError(
+            f"{problem}; the label looks continuous ({len(sizes)} distinct numbers among "
+            f"{counted(len(labels), 'row')}), and curate treats each distinct value as a class",
+            hint="if it is a numeric target, bin it into a few classes before curating, or use a "
+                 "curate version with numeric targets ([input] task = \"regression\")")
+    hint = (f"lower k below {size}, or {reach}" if size > 1 else
+            f"a class of one row has no neighbours of its own to vote with: {reach}, or drop "
+            "such rows")
+    raise UsageError(problem, hint=hint)
+
+
+def _limit_hint(stage: StageSettings) -> str:
+    """What to change when a stage goes over its safety limit, in the terms of its method."""
+    info = METHODS[stage.method]
+    names = {p.name for p in info.params}
+    tips = []
+    lead = ("the rows copy kept rows exactly: if they are genuine repeated observations, "
+            if not info.uses_neighbours and not names else "")
+    if "k" in names:
+        tips.append("try another k")
+    if "radius" in names:
+        tips.append("use a smaller radius (curate distances shows the distances)")
+    if "threshold" in names:
+        tips.append("raise threshold")
+    if stage.params.get("vote") == "unanimous":
+        tips.append("use vote = \"majority\"")
+    if stage.params.get("policy") == "drop-all":
+        tips.append("use policy = \"keep-majority\" or \"report\"")
+    tips.append("keep the class out of reach with classes = \"all-but-smallest\" or a list of "
+                "classes (or protect its rows)")
+    return (f"{lead}{'; '.join(tips)}; or raise max_removed_share for this stage if that share is "
+            "expected (1.0 switches the limit off)")
 
 
 def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
                   ids: list[Any], verb: str = "remove") -> SafetyLimitError | None:
     """The error a run stops with when the stage removes (or relabels) too much of a class,
     else None."""
-    if stage.max_removed_share >= 1.0 or len(removed_local) == 0:
+    off = stage.max_removed_share >= 1.0 and not stage.keep_every_class
+    if off or len(removed_local) == 0:
         return None
     values, entering = np.unique(labels.astype(str), return_counts=True)
     leaving = dict(zip(*np.unique(labels[removed_local].astype(str), return_counts=True),
                        strict=True))
-    for value, total in zip(values.tolist(), entering, strict=True):
-        share = leaving.get(value, 0) / total
-        if share > stage.max_removed_share:
-            rows = [ids[i] for i in removed_local if str(labels[i]) == value]
-            return SafetyLimitError(
-                f"stage {stage.name!r} ({stage.method}) would {verb} {leaving[value]} of "
-                f"{total} rows of class {value!r} ({share:.0%}), over its limit "
-                f"max_removed_share = {stage.max_removed_share}; {first_ids(rows)}",
-                hint="review why (lower k, classes = \"all-but-smallest\"), or raise "
-                     "max_removed_share for this stage if that share is expected "
-                     "(condensing stages usually remove most rows)")
+    for value, total in zip(values.tolist(), entering.tolist(), strict=True):
+        gone = int(leaving.get(value, 0))
+        vanished = stage.keep_every_class and gone == total
+        if gone / total <= stage.max_removed_share and not vanished:
+            continue
+        rows = [ids[i] for i in removed_local if str(labels[i]) == value]
+        if vanished:
+            limit = ("and the class would vanish: by default a condensing or hybrid stage may "
+                     "shrink a class to any share but must keep one of its rows")
+        else:
+            limit = (f"({gone / total:.0%}), over its limit max_removed_share = "
+                     f"{stage.max_removed_share:g}")
+        return SafetyLimitError(
+            f"stage {stage.name!r} ({stage.method}) would {verb} {gone} of "
+            f"{counted(total, 'row')} of class {quoted(value)} {limit}; {first_ids(rows)}",
+            hint=_limit_hint(stage))
     return None
 
 

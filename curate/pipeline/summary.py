@@ -6,6 +6,7 @@ import functools
 import platform
 from collections import Counter
 from importlib import metadata
+from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -71,6 +72,7 @@ def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
         "params": _jsonable(dict(out.stage.params)),
         "classes": _jsonable(out.stage.classes),
         "max_removed_share": out.stage.max_removed_share,
+        "keep_every_class": out.stage.keep_every_class,
         "rows_in": out.rows_in,
         "removed": len(sel.removed),
         "kept": len(sel.kept),
@@ -109,24 +111,30 @@ def doubt_summary(values: np.ndarray) -> dict[str, Any]:
             "at_least": {f"{level:g}": int(np.sum(scored >= level)) for level in DOUBT_LEVELS}}
 
 
-def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept: pl.DataFrame,
-                  removed: pl.DataFrame, audit: pl.DataFrame, seconds: float) -> dict[str, Any]:
-    """Assemble the summary of one run, from the same objects the run folder is written from."""
+def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept_positions: np.ndarray,
+                  audit: pl.DataFrame, seconds: float) -> dict[str, Any]:
+    """Assemble the summary of one run, from the same objects the run folder is written from.
+
+    ``kept_positions`` are the input positions of the kept rows; every other
+    input row is removed (and has its row in ``audit``).
+    """
     spec = prep.spec
     label = spec.input.label
     quarantined = int((~prep.valid).sum())
+    kept_labels = prep.frame[label].gather(kept_positions)
     return {
         "rows_in": prep.frame.height,
-        "rows_kept": kept.height,
-        "rows_removed": removed.height,
+        "rows_kept": len(kept_positions),
+        "rows_removed": prep.frame.height - len(kept_positions),
         "rows_quarantined": quarantined,
         "by_reason": dict(sorted(Counter(audit["reason"].to_list()).items())),
         "classes_in": _counts(prep.frame[label].cast(pl.String).fill_null("<missing>").to_numpy()),
-        "classes_kept": _counts(kept[label].cast(pl.String).fill_null("<missing>").to_numpy()),
+        "classes_kept": _counts(kept_labels.cast(pl.String).fill_null("<missing>").to_numpy()),
         "stages": [_stage_record(prep, out) for out in outcomes],
         "input": str(spec.input.path),
         "input_sha256": file_sha256(spec.input.path),
-        "pipeline": spec.source,
+        # absolute, as "input" is: `curate review` names paths relative to the pipeline's folder
+        "pipeline": str(Path(spec.source).resolve()) if Path(spec.source).is_file() else spec.source,
         "pipeline_sha256": spec.sha256,
         "seed": spec.run.seed,
         "label": label,

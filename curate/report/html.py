@@ -16,7 +16,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import polars as pl
 
-from curate.report.cells import cell, image, table
+from curate.report.cells import cell, image, marked, section, table
+from curate.report.evaluation import evaluation_section, over_limit_notes
 
 if TYPE_CHECKING:
     from curate.pipeline.records import RunResult
@@ -37,22 +38,26 @@ MAX_QUERIES = 2000
 
 _STYLE = """body{font-family:system-ui,sans-serif;max-width:64em;margin:2em auto;padding:0 1em;
 color:#1b1f23;line-height:1.45}h1{font-size:1.6em}h2{margin-top:1.8em;border-bottom:1px solid #ddd}
-table{border-collapse:collapse;margin:.6em 0}td,th{border:1px solid #c8ccd0;padding:.25em .6em;
-text-align:left}td.n{text-align:right;font-variant-numeric:tabular-nums}
+table{border-collapse:collapse;margin:.6em 0;max-width:100%}td,th{border:1px solid #c8ccd0;
+padding:.25em .6em;text-align:left}td.n{text-align:right;font-variant-numeric:tabular-nums;
+white-space:nowrap}table.wide{font-size:.86em}table.wide td,table.wide th{padding:.2em .4em}
 img{max-width:100%;height:auto}.note{color:#555;font-size:.92em}code{font-size:.92em}"""
 
 
-def _section(ident: str, title: str, body: str) -> str:
-    return f'<section id="{ident}"><h2>{html.escape(title)}</h2>\n{body}\n</section>'
-
-
 def _headline(s: Mapping[str, Any]) -> str:
-    keys = ("rows_in", "rows_kept", "rows_removed", "rows_quarantined", "seconds", "seed")
-    main = table(["rows in", "kept", "removed", "quarantined", "run time (s)", "seed"],
-                 [[cell(s[k], k) for k in keys]])
+    keys = ("rows_in", "rows_kept", "rows_removed", "rows_quarantined", "seconds")
+    total = (cell(s["total_seconds"], "total_seconds") if "total_seconds" in s else cell(None))
+    main = table(["rows in", "kept", "removed", "quarantined", "stages (s)",
+                  "whole command (s)", "seed"],
+                 [[*(cell(s[k], k) for k in keys), total, cell(s["seed"], "seed")]])
+    timed = ('<p class="note">Stages: the time from the first stage to the summary, the work of '
+             "the methods. Whole command: from the start of the command (or of "
+             "<code>curate.run</code>) to writing the tables: reading and checking the input, "
+             "building the space, the stages and writing kept, removed and audit rows; writing "
+             "this report comes after. Python's own start-up is not included.</p>")
     reasons = table(["reason", "rows removed"],
                     [[cell(r), cell(n, f"by_reason.{r}")] for r, n in s["by_reason"].items()])
-    facts = table(["", ""], [
+    facts = table([], [
         [cell("input"), cell(s["input"])],
         [cell("input sha256"), cell(s["input_sha256"])],
         [cell("pipeline"), cell(s["pipeline"])],
@@ -62,7 +67,7 @@ def _headline(s: Mapping[str, Any]) -> str:
         [cell("neighbour engine"), cell(_engine_text(s.get("engine", {})))],
         [cell("versions"), cell(", ".join(f"{k} {v}" for k, v in s["versions"].items()))],
     ])
-    return f"{main}\n<h3>Removed, by reason</h3>{reasons}\n<h3>Provenance</h3>{facts}"
+    return f"{main}{timed}\n<h3>Removed, by reason</h3>{reasons}\n<h3>Provenance</h3>{facts}"
 
 
 def _engine_text(engine: Mapping[str, Any]) -> str:
@@ -116,16 +121,17 @@ def _classes(s: Mapping[str, Any]) -> str:
     before, after = s["classes_in"], s["classes_kept"]
     rows = [[cell(c), cell(before[c], f"classes_in.{c}"),
              cell(after.get(c, 0), f"classes_kept.{c}"),
-             cell(after.get(c, 0) / before[c] if before[c] else float("nan"))] for c in before]
+             cell(after.get(c, 0) / before[c] if before[c] else float("nan"), percent=True)]
+            for c in before]
     return table(["class", "rows in", "rows kept", "share kept"], rows) + \
         image(class_balance_plot(before, after), "rows per class before and after")
 
 
-def _reasons_of_valid(result: RunResult) -> np.ndarray:
-    """Removal reason of each row of the space (valid rows), empty text for kept rows;
+def _reasons_of_valid(result: RunResult, pick: np.ndarray) -> np.ndarray:
+    """Removal reason of the rows ``pick`` of the space (valid rows), empty text for kept rows;
     ``flagged, kept: <reason>`` for kept rows a label-noise stage flagged."""
     prep = result.prepared
-    ids = prep.ids.gather(prep.valid_positions)
+    ids = prep.ids.gather(prep.valid_positions[pick])
     marks = result.audit.select("row_id", "reason")
     if result.flagged is not None and result.flagged.height:
         flagged = result.flagged.unique("row_id", keep="last", maintain_order=True).select(
@@ -160,7 +166,7 @@ def _projection(result: RunResult) -> str:
             f"({space.matrix.shape[1]} embedded dimensions, {space.metric} distance); "
             f"{len(pick):,} of {space.n:,} rows shown"
             + (", a seeded uniform sample" if len(pick) < space.n else "") + ".</p>")
-    return note + image(projection_plot(xy, _reasons_of_valid(result)[pick],
+    return note + image(projection_plot(xy, _reasons_of_valid(result, pick),
                                          pca.explained_variance_ratio_.tolist()),
                          "two-dimensional projection with removed rows marked")
 
@@ -185,97 +191,19 @@ def _distances(result: RunResult) -> str:
     rows = [[cell("rows measured"), cell(len(pick))],
             [cell("median distance"), cell(float(np.median(dist)))],
             [cell("share at distance 0 (exact copies in the features)"),
-             cell(float(np.mean(dist == 0)))]]
+             cell(float(np.mean(dist == 0)), percent=True)]]
     if radius is not None:
-        rows.append([cell("share within the near-copy radius"), cell(float(np.mean(dist <= radius)))])
+        rows.append([cell("share within the near-copy radius"),
+                     cell(float(np.mean(dist <= radius)), percent=True)])
     return (f'<p class="note">Distance from each row to its nearest other row in the input '
             f"(before any stage), {len(pick):,} rows"
             + (" sampled with a seed" if len(pick) < space.n else "") + ".</p>"
-            + table(["", ""], rows) + image(distance_plot(dist, radius),
+            + table([], rows) + image(distance_plot(dist, radius),
                                              "histogram of nearest-neighbour distances"))
 
 
-def _detection_table(block: Mapping[str, Any], key: str) -> str:
-    head = ["stage", "removed", "of them faulty", "precision", "recall"]
-    rows = [[cell(st["stage"]), *(cell(st[m], f"{key}.stages.{i}.{m}")
-                                  for m in ("removed", "found", "precision", "recall"))]
-            for i, st in enumerate(block["stages"])]
-    every = block["all_stages"]
-    rows.append([cell("all stages"), *(cell(every[m], f"{key}.all_stages.{m}")
-                                       for m in ("removed", "found", "precision", "recall"))])
-    return table(head, rows)
-
-
-def _noise(e: Mapping[str, Any]) -> str:
-    parts = []
-    if e.get("noise"):
-        n = e["noise"]
-        towards = f" towards class {n['towards']!r}" if n["towards"] is not None else \
-            " to another class drawn uniformly"
-        parts.append(f"<h3>Injected label noise</h3><p>In every training part, a seeded "
-                     f"{n['rate']:.1%} of rows got a wrong label{html.escape(towards)} before "
-                     f"curation ({n['flipped']:,} flips over all folds). Precision: share of "
-                     "removed rows that were flipped; recall: share of flipped rows removed.</p>"
-                     + _detection_table(n, "evaluation.noise"))
-    if e.get("truth"):
-        t = e["truth"]
-        kinds = ", ".join(f"{k}: {v:,}" for k, v in t["faults"].items())
-        parts.append(f"<h3>Known faults</h3><p>Rows marked faulty in {html.escape(t['file'])} "
-                     f"({html.escape(kinds)} among the evaluated rows; each counts in every fold "
-                     "whose training part holds it). Recall per stage is against all faulty "
-                     "rows, so the stages' recalls add up.</p>" + _detection_table(t, "evaluation.truth")
-                     + table(["kind of fault", "in training parts", "removed", "recall"],
-                             [[cell(kind), *(cell(v[m], f"evaluation.truth.by_fault.{kind}.{m}")
-                                             for m in ("faulty", "found", "recall"))]
-                              for kind, v in t["by_fault"].items()]))
-    return "\n".join(parts)
-
-
-def over_limit_notes(e: Mapping[str, Any]) -> list[str]:
-    """One sentence per stage that went over its max_removed_share in some folds (shared by
-    the report and the command line's text)."""
-    total = e["folds"] * e["repeats"]
-    return [f"stage {name!r} removed more of a class than its max_removed_share in {n} of "
-            f"{total} folds: a run on such data stops there; the numbers show what it removed "
-            "anyway" for name, n in (e.get("over_limit") or {}).items()]
-
-
-def _evaluation(e: Mapping[str, Any]) -> str:
-    from curate.report.plots import accuracy_plot
-
-    intro = (f"<p>Stratified {e['folds']}-fold cross-validation, {e['repeats']} repeat(s), seed "
-             f"{e['seed']}, on {e['rows']:,} rows. The stages ran on the training part of each "
-             "fold only; test folds were never curated, and the same folds served both columns. "
-             f"p-values: {html.escape(e['test'])}.</p>")
-    facts = table(["majority-class baseline", "training rows kept", "ms per 1,000 lookups, full",
-                   "ms per 1,000 lookups, curated"],
-                  [[cell(e["baseline_accuracy"], "evaluation.baseline_accuracy"),
-                    cell(e["kept_share"], "evaluation.kept_share"),
-                    cell(e["lookup"]["full_ms_per_1000"], "evaluation.lookup.full_ms_per_1000"),
-                    cell(e["lookup"]["curated_ms_per_1000"], "evaluation.lookup.curated_ms_per_1000")]])
-    head = ["model", "k", "curated", "accuracy", "sd", "balanced accuracy", "macro F1",
-            "rows kept", "difference", "p-value"]
-    rows = [[cell(r["model"]), cell(r["k"]), cell(r["curated"]),
-             *(cell(r[m], f"evaluation.results.{i}.{m}") if m in r else cell(None)
-               for m in ("accuracy", "accuracy_std", "balanced_accuracy", "macro_f1",
-                         "kept_share", "accuracy_difference", "p_value"))]
-            for i, r in enumerate(e["results"])]
-    best = e.get("best_k") or {}
-    best_text = (f"<p>Best k by mean accuracy: {best.get('uncurated')} without curation, "
-                 f"{best.get('curated')} with curation.</p>" if best else "")
-    plot = ""
-    if any(r["k"] is not None for r in e["results"]):
-        plot = image(accuracy_plot(e["results"], e["baseline_accuracy"]),
-                      "accuracy against k, with and without curation")
-    from curate.report.ranking import ranking_html
-
-    warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
-                       for w in over_limit_notes(e))
-    return intro + ranking_html(e) + warnings + facts + table(head, rows) + best_text + plot + _noise(e)
-
-
 def _cautions() -> str:
-    return "<ul>" + "".join(f"<li>{html.escape(c)}</li>" for c in CAUTIONS) + "</ul>"
+    return "<ul>" + "".join(f"<li>{marked(c)}</li>" for c in CAUTIONS) + "</ul>"
 
 
 def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -> str:
@@ -297,17 +225,17 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
     s = result.summary
     from curate.report.doubt import doubt_section
 
-    parts = [_section("headline", "Headline", _headline(s)),
-             _section("flow", "Stage by stage", _flow(s)),
-             _section("classes", "Class balance", _classes(s)),
-             _section("projection", "Where the removed rows lie", _projection(result)),
-             _section("distances", "Nearest-neighbour distances", _distances(result))]
+    parts = [section("headline", "Headline", _headline(s)),
+             section("flow", "Stage by stage", _flow(s)),
+             section("classes", "Class balance", _classes(s)),
+             section("projection", "Where the removed rows lie", _projection(result)),
+             section("distances", "Nearest-neighbour distances", _distances(result))]
     doubt = doubt_section(result)
     if doubt:
-        parts.insert(4, _section("doubt", "Doubt about labels", doubt))
+        parts.insert(4, section("doubt", "Doubt about labels", doubt))
     if evaluation is not None:
-        parts.append(_section("evaluation", "Evaluation", _evaluation(evaluation)))
-    parts.append(_section("cautions", "Cautions", _cautions()))
+        parts.append(section("evaluation", "Evaluation", evaluation_section(evaluation)))
+    parts.append(section("cautions", "Cautions", _cautions()))
     title = "curate evaluation report" if evaluation is not None else "curate run report"
     body = "\n".join(parts)
     return f"""<!doctype html>

@@ -22,8 +22,12 @@ __all__ = ["accuracy_plot", "class_balance_plot", "distance_plot", "doubt_plot",
            "projection_plot"]
 
 _KEPT = "#9aa5b1"
+_KEPT_DOT = "#2b4c7e"  # kept rows in the projection: dark, so they show under removed markers
 _COLOURS = ("#d62728", "#1f77b4", "#ff7f0e", "#2ca02c", "#9467bd", "#8c564b", "#e377c2",
             "#17becf", "#bcbd22", "#7f7f7f")
+# Removed rows in the projection: none of them close to the kept rows' dark blue.
+_REMOVED = ("#d62728", "#ff7f0e", "#2ca02c", "#9467bd", "#e377c2", "#8c564b", "#17becf",
+            "#bcbd22", "#7f7f7f")
 
 
 def _figure(width: float = 7.0, height: float = 3.6) -> Figure:
@@ -93,34 +97,44 @@ def class_balance_plot(before: Mapping[str, int], after: Mapping[str, int]) -> s
 
 
 def projection_plot(xy: np.ndarray, reasons: np.ndarray, explained: Sequence[float]) -> str:
-    """Scatter of a 2-D projection: kept rows grey, removed rows coloured by reason.
+    """Scatter of a 2-D projection: kept rows as dots, removed rows on top by reason.
 
     ``reasons`` holds one text per point, empty for kept rows; ``explained``
-    the share of variance of each axis.
+    the share of variance of each axis. Kept rows are drawn first as solid
+    dots in a colour of their own, removed rows as hollow markers over them
+    (so both stay visible where they crowd), and the legend counts each group.
 
     Examples
     --------
     >>> projection_plot(np.zeros((3, 2)), np.array(["", "vote", ""]), [0.6, 0.3])[:10]
     'data:image'
     """
-    fig = _figure(7.0, 5.0)
+    fig = _figure(9.0, 5.2)
     ax = fig.add_subplot()
     kept = reasons == ""
-    ax.scatter(xy[kept, 0], xy[kept, 1], s=5, c=_KEPT, alpha=0.5, linewidths=0, label="kept")
+    # Kept rows: large solid dots with a white rim. Removed rows: small thin rings on top,
+    # see-through, so that a kept dot still shows where removed rows crowd around it.
+    ax.scatter(xy[kept, 0], xy[kept, 1], s=30, c=_KEPT_DOT, edgecolors="white", linewidths=0.5,
+               label=f"kept ({int(kept.sum()):,})", zorder=2)
     names = sorted(set(reasons[~kept].tolist()))
-    colour = _colour(names)
+    colour = {r: _REMOVED[i % len(_REMOVED)] for i, r in enumerate(names)}
     for reason in names:
         at = reasons == reason
-        if reason.startswith("flagged"):  # kept rows a label-noise stage flagged
-            ax.scatter(xy[at, 0], xy[at, 1], s=16, facecolors="none", edgecolors=colour[reason],
-                       linewidths=0.8, label=reason)
+        if reason.startswith("flagged"):  # kept rows a label-noise stage flagged: crosses
+            ax.scatter(xy[at, 0], xy[at, 1], s=14, c=colour[reason], marker="x", linewidths=0.8,
+                       label=f"{reason} ({int(at.sum()):,})", zorder=4)
             continue
-        ax.scatter(xy[at, 0], xy[at, 1], s=12, c=colour[reason], marker="x", linewidths=0.8,
-                   label=f"removed: {reason}")
+        ax.scatter(xy[at, 0], xy[at, 1], s=9, facecolors="none", edgecolors=colour[reason],
+                   linewidths=0.6, alpha=0.6, label=f"removed: {reason} ({int(at.sum()):,})",
+                   zorder=3)
     ax.set_xlabel(f"first component ({explained[0]:.0%} of variance)")
     ax.set_ylabel(f"second component ({explained[1]:.0%} of variance)"
                   if len(explained) > 1 else "(one dimension only)")
-    ax.legend(fontsize="small", frameon=False, markerscale=1.5)
+    legend = ax.legend(fontsize="small", frameon=False, markerscale=1.5, loc="upper left",
+                       bbox_to_anchor=(1.01, 1.0), title="rows shown", title_fontsize="small")
+    for handle in legend.legend_handles:
+        if handle is not None:
+            handle.set_alpha(1.0)
     return _uri(fig)
 
 

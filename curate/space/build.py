@@ -3,8 +3,9 @@
 ``distance`` picks how columns are embedded (see :mod:`curate.space.columns`):
 
 * ``"euclidean"`` / ``"manhattan"``: numeric columns scaled by ``scale`` (range to
-  [0, 1] by default, or z-score, or robust); nominal columns one-hot, scaled so
-  that two different values are at distance 1 (the overlap metric).
+  [0, 1] by default, or z-score, or robust, or ``"none"``: as they are); nominal
+  columns one-hot, scaled so that two different values are at distance 1 (the
+  overlap metric).
 * ``"heom"``: Wilson and Martinez's HEOM, numeric by range, nominal by overlap.
 * ``"hvdm"``: their HVDM, numeric by four standard deviations, nominal by VDM
   (needs the labels).
@@ -85,6 +86,34 @@ def _embed(col: Column, settings: SpaceSettings, classes: np.ndarray | None,
     return encode_nominal(col, how, fit=fit), [f"{col.name}={lv}" for lv in col.levels]
 
 
+def _width(col: Column, settings: SpaceSettings, n_classes: int) -> int:
+    """Embedded dimensions of one column: 1 if numeric, else one per level (or per class, VDM)."""
+    if not col.nominal:
+        return 1
+    return n_classes if settings.distance == "hvdm" else len(col.levels)
+
+
+def _check_nominal_size(prepared: list[Column], settings: SpaceSettings, n_classes: int,
+                        n_rows: int, memory_mb: int) -> None:
+    """Stop before encoding nominal columns whose embedding would not fit the memory setting.
+
+    A nominal column takes one float64 dimension per level (overlap) or per
+    class (VDM) on every row.
+    """
+    dims = {c.name: _width(c, settings, n_classes) for c in prepared if c.nominal}
+    need = n_rows * sum(dims.values()) * 8
+    if need <= memory_mb * 2**20:
+        return
+    widest = sorted(dims.items(), key=lambda item: -item[1])[:5]
+    raise UsageError(
+        f"encoding the nominal columns would take {need / 2**20:,.0f} MB for {n_rows:,} rows, "
+        f"more than the memory setting of {memory_mb:,} MB; the widest: "
+        + ", ".join(f"{name!r} ({width:,} values)" for name, width in widest),
+        hint="leave columns that are ids or free text out ([input] ignore), or raise [run] "
+             "memory_mb / --memory-mb" + ("" if settings.distance == "hvdm" else
+                                          ", or use distance = \"hvdm\" (one dimension per class)"))
+
+
 def _fit_mask(fit_rows: np.ndarray | Sequence[int] | None, n: int) -> np.ndarray | None:
     """``fit_rows`` (boolean mask or positions) as a boolean mask, None for every row."""
     if fit_rows is None:
@@ -159,17 +188,25 @@ def build_space(frame: pl.DataFrame, kinds: dict[str, str], settings: SpaceSetti
                          hint="pass labels= to build_space")
     prepared = [prepare_column(frame[name], kind in NOMINAL_KINDS, ids, settings.missing, fit)
                 for name, kind in kinds.items()]
+    _check_nominal_size(prepared, settings, len(class_names), frame.height,
+                        (engine or EngineSettings()).memory_mb)
     weights = _resolve_weights(settings, prepared, classes, fit)
     manhattan = settings.distance == "manhattan"
-    blocks, dims, groups = [], [], []
-    for g, col in enumerate(prepared):
+    gaps = np.column_stack([c.gaps for c in prepared]) if prepared else None
+    # Filled column by column in place, and each prepared column let go once embedded:
+    # no list of blocks plus their stacked copy, no second copy of every value.
+    widths = [_width(c, settings, len(class_names)) for c in prepared]
+    matrix = np.empty((frame.height, sum(widths)))
+    dims, groups, at = [], [], 0
+    for g, width in enumerate(widths):
+        col = prepared[g]
         block, names_g = _embed(col, settings, classes, class_names, fit)
         w = weights[col.name]
-        blocks.append(block * (w if manhattan else np.sqrt(w)))
+        np.multiply(block, w if manhattan else np.sqrt(w), out=matrix[:, at:at + width])
+        prepared[g] = col.released()
         dims.extend(names_g)
-        groups.extend([g] * block.shape[1])
-    matrix = np.hstack(blocks) if blocks else np.zeros((frame.height, 0))
-    gaps = np.column_stack([c.gaps for c in prepared]) if prepared else None
+        groups.extend([g] * width)
+        at += width
     has_gaps = gaps is not None and bool(gaps.any())
     base = "manhattan" if manhattan else "euclidean"
     return Space(np.ascontiguousarray(matrix),

@@ -43,7 +43,7 @@ from __future__ import annotations
 
 import warnings
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import polars as pl
@@ -51,6 +51,7 @@ import polars as pl
 from curate.errors import ConstantColumnWarning, InputError, first_ids
 
 __all__ = [
+    "LARGEST",
     "Column",
     "encode_nominal",
     "encode_numeric",
@@ -58,6 +59,13 @@ __all__ = [
     "prepare_column",
     "unseen_overlap",
 ]
+
+
+# The largest magnitude a numeric value may have. Beyond it, a column's range, mean or
+# standard deviation can overflow to infinity (squares of 1.34e154 already do; sums of
+# squares over 10**8 rows of 1e150 stay finite), and such values are input errors in
+# practice (common practice, no source).
+LARGEST = 1e150
 
 
 @dataclass(frozen=True)
@@ -75,6 +83,16 @@ class Column:
     values: np.ndarray
     gaps: np.ndarray
     levels: tuple[str, ...] = ()
+
+    def released(self) -> Column:
+        """The same column without its values (once embedded, they are not read again).
+
+        Examples
+        --------
+        >>> Column("a", False, np.ones(3), np.zeros(3, bool)).released().values.size
+        0
+        """
+        return replace(self, values=np.zeros(0, dtype=self.values.dtype))
 
 
 def prepare_column(series: pl.Series, nominal: bool, ids: Sequence[object],
@@ -114,11 +132,7 @@ def prepare_column(series: pl.Series, nominal: bool, ids: Sequence[object],
     else:
         values = series.cast(pl.Float64).fill_null(np.nan).to_numpy().astype(np.float64)
         gaps = np.isnan(values)
-        if np.isinf(values).any():
-            rows = [ids[int(i)] for i in np.flatnonzero(np.isinf(values))]
-            raise InputError(f"column {name!r} has infinite values in {first_ids(rows)}",
-                             hint="fix or remove those rows, or add a max/min rule and "
-                                  "on_invalid = \"quarantine\" in [input]")
+        _check_finite(name, values, ids)
         levels = ()
     if gaps.any() and missing == "stop":
         rows = [ids[int(i)] for i in np.flatnonzero(gaps)]
@@ -130,6 +144,22 @@ def prepare_column(series: pl.Series, nominal: bool, ids: Sequence[object],
         values = _impute(name, values, gaps, nominal, len(levels), fit)
         gaps = np.zeros_like(gaps)
     return Column(name, nominal, values, gaps, levels)
+
+
+def _check_finite(name: str, values: np.ndarray, ids: Sequence[object]) -> None:
+    """Refuse infinite values and values beyond :data:`LARGEST` in magnitude."""
+    with np.errstate(invalid="ignore"):
+        huge = np.abs(values) > LARGEST  # NaN compares False: gaps pass
+    if not huge.any():
+        return
+    at = np.flatnonzero(huge)
+    rows = [ids[int(i)] for i in at]
+    shown = ", ".join(f"{v:g}" for v in values[at[:5]])
+    what = "infinite values" if np.isinf(values[at]).all() else \
+        f"values out of range (beyond ±{LARGEST:g})"
+    raise InputError(f"column {name!r} has {what} in {first_ids(rows)}: {shown}",
+                     hint="fix or remove those rows, or add a max/min rule and "
+                          "on_invalid = \"quarantine\" in [input]")
 
 
 def _impute(name: str, values: np.ndarray, gaps: np.ndarray, nominal: bool,
@@ -184,7 +214,8 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
 
     ``scale`` is ``"range"`` (divide by max - min), ``"zscore"`` (by the
     standard deviation), ``"robust"`` (by the interquartile range, centred on the
-    median) or ``"4sd"`` (by four standard deviations, as in HVDM). Standard
+    median), ``"4sd"`` (by four standard deviations, as in HVDM) or ``"none"``
+    (the values as they are, for pre-scaled features and embeddings). Standard
     deviations are population ones (ddof 0) over the present values of the
     ``fit`` rows (all rows when None); the other rows are scaled with them.
 
@@ -195,6 +226,8 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
     [0.0, 0.5, 1.0]
     >>> encode_numeric(c, "range", np.array([True, True, False])).ravel().tolist()
     [0.0, 1.0, 2.0]
+    >>> encode_numeric(c, "none").ravel().tolist()
+    [0.0, 5.0, 10.0]
     """
     source = ~column.gaps if fit is None else ~column.gaps & fit
     present = column.values[source]
@@ -202,6 +235,42 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
     if len(present) == 0:
         _warn_constant(column.name, fit)
         return out
+    factor, low, span = _scaling(present, scale)
+    if span == 0 or not np.isfinite(span):
+        _warn_constant(column.name, fit)
+        return out
+    out[~column.gaps, 0] = (column.values[~column.gaps] / factor - low) / span
+    return out
+
+
+def _scaling(present: np.ndarray, scale: str) -> tuple[float, float, float]:
+    """``(factor, low, span)``: a value ``x`` embeds as ``(x / factor - low) / span``.
+
+    ``factor`` is 1 unless the plain statistics overflow (values near the float
+    limits, whose range or squares exceed the largest float): then the values
+    are divided by their largest magnitude first, so that no difference, sum or
+    square can reach infinity, and the column is not mistaken for a constant one.
+
+    Examples
+    --------
+    >>> _scaling(np.array([0.0, 5.0, 10.0]), "range")
+    (1.0, 0.0, 10.0)
+    >>> _scaling(np.array([-1e308, 0.0, 1e308]), "range")
+    (1e+308, -1.0, 2.0)
+    """
+    with np.errstate(over="ignore", invalid="ignore"):
+        low, span = _plain_location_span(present, scale)
+    if np.isfinite(low) and np.isfinite(span):
+        return 1.0, low, span
+    factor = float(np.max(np.abs(present)))
+    low, span = _plain_location_span(present / factor, scale)
+    return factor, low, span
+
+
+def _plain_location_span(present: np.ndarray, scale: str) -> tuple[float, float]:
+    if scale == "none":
+        # Unscaled, but a column with one value still contributes nothing: say so.
+        return 0.0, (1.0 if present.max() > present.min() else 0.0)
     if scale == "range":
         low, span = present.min(), present.max() - present.min()
     elif scale == "robust":
@@ -209,11 +278,7 @@ def encode_numeric(column: Column, scale: str, fit: np.ndarray | None = None) ->
         span = q3 - q1
     else:
         low, span = present.mean(), present.std() * (4.0 if scale == "4sd" else 1.0)
-    if span == 0 or not np.isfinite(span):
-        _warn_constant(column.name, fit)
-        return out
-    out[~column.gaps, 0] = (column.values[~column.gaps] - low) / span
-    return out
+    return float(low), float(span)
 
 
 def encode_nominal(column: Column, how: str, classes: np.ndarray | None = None,

@@ -146,3 +146,13 @@ def test_recall_target_on_the_command_line(make_pipeline, two_blobs, capsys):
                  "--recall-target", "1.5"]) == 2
     assert "--recall-target" in capsys.readouterr().err
     assert not (path.parent / "no").exists()
+
+
+def test_run_says_what_it_timed(make_pipeline, two_blobs, capsys):
+    """The stages' time and the whole command's, both said (common practice, no source)."""
+    path = make_pipeline(two_blobs, STAGES)
+    assert main(["run", str(path)]) == 0
+    err = capsys.readouterr().err
+    assert "stages " in err and "; whole command " in err
+    summary = json.loads((path.parent / "run" / "summary.json").read_text())
+    assert summary["total_seconds"] >= summary["seconds"] > 0

@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from evaluate_fixtures import wine_csv
+from message_checks import assert_plain_message
 from report_fixtures import Page, check_images, keyed_numbers_match
 from sklearn.model_selection import StratifiedKFold, cross_val_score
 from sklearn.neighbors import KNeighborsClassifier
@@ -91,11 +92,40 @@ def test_terminal_table_without_json(pipeline: Path, capsys) -> None:
     assert "stratified 3-fold" in text and "DecisionTreeClassifier" in text
 
 
-@pytest.mark.parametrize("argv", [["--k", "0"], ["--folds", "100"], ["--inject-noise", "1.5"],
+@pytest.mark.parametrize("argv", [["--k", "0"], ["--folds", "500"], ["--inject-noise", "1.5"],
                                   ["--model", "no.such.Model"], ["--noise-towards", "7"],
                                   ["--model", "sklearn.tree.DecisionTreeClassifier",
                                    "--model-param", "depth_of_tree=2"]])
 def test_bad_requests_exit_with_usage_code(pipeline: Path, argv: list[str], capsys) -> None:
     assert main(["evaluate", str(pipeline), "--quiet", *argv]) == 2
     err = capsys.readouterr().err
-    assert err.startswith("UsageError:") and "hint:" in err
+    assert_plain_message(err)
+
+
+@pytest.mark.parametrize("argv, named", [
+    (["--model", "sklearn.svm.SVC", "--model-param", "C=abc"], ["sklearn.svm.SVC", "C='abc'"]),
+    # scikit-learn's MultinomialNB refuses negative features, which z-scores have: the error
+    # comes from the model's fit on the first fold.
+    (["--model", "sklearn.naive_bayes.MultinomialNB"], ["MultinomialNB", "Negative values"]),
+])
+def test_errors_of_a_user_named_model_are_usage_errors(pipeline: Path, argv: list[str],
+                                                      named: list[str], capsys) -> None:
+    path = pipeline.parent / "wine-zscore.toml"
+    path.write_text(pipeline.read_text() + '\n[space]\nscale = "zscore"\n')
+    assert main(["evaluate", str(path), "--folds", "3", "--k", "1", "--quiet", *argv]) == 2
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and "hint:" in err
+    for word in named:
+        assert word in err, err
+
+
+def test_a_class_smaller_than_the_folds_is_a_warning_in_the_text(pipeline: Path, capsys) -> None:
+    table = pipeline.parent / "wine.csv"
+    rows = table.read_text().splitlines()
+    small = [r for r in rows[1:] if r.endswith(",2")][:5]
+    (pipeline.parent / "wine4.csv").write_text(
+        "\n".join([rows[0], *[r for r in rows[1:] if not r.endswith(",2")], *small]) + "\n")
+    path = pipeline.parent / "wine4.toml"
+    path.write_text(pipeline.read_text().replace("wine.csv", "wine4.csv"))
+    assert main(["evaluate", str(path), "--folds", "8", "--k", "1", "--quiet"]) == 0
+    assert "warning: class '2' has 5 rows, fewer than the 8 folds" in capsys.readouterr().out

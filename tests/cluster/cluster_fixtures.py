@@ -29,7 +29,7 @@ def local_cluster(**config: Any) -> Iterator[str]:
     from distributed import LocalCluster
 
     with dask.config.set(config), LocalCluster(n_workers=2, threads_per_worker=1,
-                                               processes=True, dashboard_address=None) as cluster:
+                                               processes=True, dashboard_address="127.0.0.1:0") as cluster:
         yield cluster.scheduler_address
 
 

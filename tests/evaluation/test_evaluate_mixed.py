@@ -61,7 +61,9 @@ def test_hvdm_tables_never_see_test_labels(tmp_path) -> None:
     frame = pl.DataFrame({"noise": rng.normal(size=n), "tag": [f"t{i}" for i in range(n)],
                           "y": labels})
     frame.write_csv(tmp_path / "tags.csv")
-    out = evaluate(spec_for(tmp_path / "tags.csv", "y", space={"distance": "hvdm"}),
+    # one tag per row is id-like: declared a category on purpose, or curate refuses it
+    out = evaluate(spec_for(tmp_path / "tags.csv", "y", space={"distance": "hvdm"},
+                            input={"columns": {"tag": {"type": "category"}}}),
                    folds=FOLDS, ks=[1], seed=SEED)
     majority = max(labels.mean(), 1 - labels.mean())
     (plain,) = [r for r in out["results"] if not r["curated"]]

@@ -49,13 +49,17 @@ def test_injected_flips_are_scored_like_imbalanced_learn_finds_them(tmp_path,
     assert (stage["removed"], stage["found"]) == (removed, found)
     assert out["noise"]["flipped"] == flipped_total
     assert stage["recall"] == found / flipped_total
-    assert out["noise"]["all_stages"] == {k: v for k, v in stage.items() if k != "stage"}
+    # ENN is meant to catch wrong labels and is the only stage: every flip reached it.
+    assert stage["faulty"] == flipped_total and stage["meant_for"] == ["label-flip"]
+    rates = ("removed", "faulty", "found", "precision", "recall")
+    assert out["noise"]["all_stages"] == {k: stage[k] for k in rates}
 
 
 def test_known_faults_of_the_demo_are_scored_per_kind(tmp_path) -> None:
     paths = demo_data.write(tmp_path, rows=800, seed=4)
     spec = spec_for(paths["readings"], "condition",
-                    [{"name": "copies", "method": "exact-duplicates"}],
+                    [{"name": "copies", "method": "exact-duplicates"},
+                     {"name": "mislabels", "method": "enn", "k": 3, "max_removed_share": 1.0}],
                     input={"id": "reading_id", "ignore": ["note"]})
     out = evaluate(spec, folds=FOLDS, ks=[1], truth=paths["truth"], seed=SEED)
 
@@ -64,15 +68,26 @@ def test_known_faults_of_the_demo_are_scored_per_kind(tmp_path) -> None:
     fault = readings.join(truth.select("reading_id", "fault"), on="reading_id", how="left",
                           maintain_order="left")["fault"].fill_null("").to_numpy()
     columns = [*demo_data.FEATURES, "condition"]
-    copies = resent = total_faulty = 0
+    copies = resent = resent_total = flips_left = total_faulty = 0
     cv = StratifiedKFold(n_splits=FOLDS, shuffle=True, random_state=SEED)
     for train, _ in cv.split(np.zeros(readings.height), readings["condition"].to_numpy()):
         part = readings[train].select(columns)
         repeated = ~part.select(pl.struct(pl.all()).is_first_distinct()).to_series().to_numpy()
         copies += int(repeated.sum())
         resent += int((repeated & (fault[train] == "re-sent")).sum())
+        resent_total += int((fault[train] == "re-sent").sum())
+        flips_left += int((~repeated & (fault[train] == "label-flip")).sum())
         total_faulty += int((fault[train] != "").sum())
-    assert out["truth"]["stages"][0]["removed"] == copies
+    copies_stage, enn_stage = out["truth"]["stages"]
+    assert copies_stage["removed"] == copies
     assert out["truth"]["all_stages"]["faulty"] == total_faulty
-    assert out["truth"]["by_fault"]["re-sent"]["found"] == resent > 0
+    assert out["truth"]["by_fault"]["re-sent"]["found"] >= resent > 0  # ENN may remove some too
     assert set(out["truth"]["faults"]) == set(truth["fault"].unique())
+    # Each stage is scored against the faults it is meant to catch that reached it: the copy
+    # stage against re-sent rows only (not every fault), ENN against the flips the copy stage
+    # left, and the denominator is said in words.
+    assert (copies_stage["faulty"], copies_stage["found"]) == (resent_total, resent)
+    assert copies_stage["recall"] == resent / resent_total
+    assert "re-sent" in copies_stage["denominator"]
+    assert enn_stage["faulty"] == flips_left > 0
+    assert enn_stage["recall"] == enn_stage["found"] / flips_left

@@ -11,9 +11,10 @@ from pathlib import Path
 
 import polars as pl
 import pytest
+from message_checks import assert_plain_message
 from review_runs import audit_of, kept_of, make_run, wine_table
 
-from curate.cli import main
+from curate.cli import main, render
 from curate.io.diff import diff_runs
 
 
@@ -86,14 +87,19 @@ def test_not_a_run_folder_exits_2(two_runs: tuple[Path, Path], tmp_path: Path,
     assert "is not a run folder" in capsys.readouterr().err
 
 
-def test_other_input_with_shared_ids_warns(two_runs: tuple[Path, Path], tmp_path: Path,
+def test_other_input_refused_unless_forced(two_runs: tuple[Path, Path], tmp_path: Path,
                                            capsys: pytest.CaptureFixture[str]) -> None:
-    """Different input files: a warning line on stderr, the shared ids are compared."""
+    """Different input files: refused (exit 2, the same id may name another row); with
+    --force a warning line on stderr, and the shared ids are compared."""
     a, _ = two_runs
     wine_table().head(150).write_csv(tmp_path / "smaller.csv")
     c = make_run(tmp_path, [{"method": "enn", "k": 3, "name": "noise"}], "c",
                  table="smaller.csv")
-    assert main(["diff", str(a), str(c), "--json"]) == 0
+    assert main(["diff", str(a), str(c), "--json"]) == 2
+    err = capsys.readouterr().err
+    assert_plain_message(err)
+    assert "different inputs" in err and "--force" in err
+    assert main(["diff", str(a), str(c), "--json", "--force"]) == 0
     captured = capsys.readouterr()
     assert captured.err.startswith("warning: the runs read different inputs")
     data = json.loads(captured.out)
@@ -108,3 +114,16 @@ def test_other_input_without_shared_ids_exits_2(two_runs: tuple[Path, Path], tmp
     d = make_run(tmp_path, [{"method": "enn", "k": 3}], "d", table="o.csv")
     assert main(["diff", str(a), str(d)]) == 2
     assert "share no row id" in capsys.readouterr().err
+
+
+def test_terminal_listing_is_capped_and_points_to_out(two_runs: tuple[Path, Path],
+                                                      capsys: pytest.CaptureFixture[str]) -> None:
+    """A long diff lists the first rows, counts the rest and names --out; --json has all."""
+    a, b = two_runs
+    expected = expected_changes(a, b)
+    assert len(expected) > 3, "the fixture should change more rows than the cap below"
+    text = render.diff_text(diff_runs(a, b), limit=3)
+    listed = [r for r in expected if any(line.startswith(f"{r} ") for line in text.splitlines())]
+    assert len(listed) == 3
+    assert text.splitlines()[-1].startswith(f"... and {len(expected) - 3} more rows")
+    assert "--out" in text.splitlines()[-1]

@@ -41,7 +41,7 @@ def refused(capsys: pytest.CaptureFixture[str], *args: str) -> str:
     code = main([*args, "--quiet"] if args[0] in ("run", "evaluate") else list(args))
     err = capsys.readouterr().err
     assert code == 2, err
-    assert "OutputError" in err and "nothing was written" in err and "hint:" in err, err
+    assert err.startswith("error: ") and "nothing was written" in err and "hint:" in err, err
     return err
 
 

@@ -8,21 +8,24 @@ from __future__ import annotations
 
 import hashlib
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 from curate.errors import PipelineFileError, UsageError
+from curate.io.trust import TrustedCode, refusal, trusted_code
 from curate.methods import METHODS
 from curate.settings import (
     BACKENDS,
     CLASS_CHOICES,
     COLUMN_TYPES,
     DISTANCES,
+    MIN_MEMORY_MB,
     MISSING_POLICIES,
     ON_INVALID,
     SCALES,
+    STAGE_KEYS,
     ClusterSettings,
     ColumnRule,
     EngineSettings,
@@ -32,75 +35,17 @@ from curate.settings import (
     SpaceSettings,
     Spec,
     StageSettings,
+    canonical,
     check_params,
     local_workers,
+    suggest,
 )
+from curate.spec._where import _fail, _get, _known, _path, _Where
 
 __all__ = ["load_spec", "spec_from_dict"]
 
-STAGE_KEYS = ("name", "method", "max_removed_share", "classes", "seed")
-
-
-class _Where:
-    """Finds the line of a key in the file text, for messages."""
-
-    def __init__(self, source: str, text: str) -> None:
-        self.source = source
-        self.lines = text.splitlines()
-
-    def line(self, table: str, key: str | None, index: int = 0) -> int | None:
-        current, seen = "", -1
-        for number, raw in enumerate(self.lines, start=1):
-            stripped = raw.strip()
-            if stripped.startswith("["):
-                current = stripped.strip("[] ")
-                if current == table and stripped.startswith("[["):
-                    seen += 1
-                elif current == table:
-                    seen = 0
-                if key is None and current == table and seen == index:
-                    return number
-                continue
-            if key and current == table and seen == index and stripped.split("=")[0].strip() == key:
-                return number
-        return None
-
-    def at(self, table: str, key: str | None = None, index: int = 0) -> str:
-        line = self.line(table, key, index)
-        spot = f"[{table}]" + (f" key {key!r}" if key else "")
-        if table == "stages":
-            spot = f"stage {index + 1}" + (f" key {key!r}" if key else "")
-        return f"{self.source}" + (f", line {line}" if line else "") + f": {spot}"
-
-
-def _fail(where: _Where, table: str, key: str | None, what: str, fix: str, index: int = 0) -> None:
-    raise PipelineFileError(f"{where.at(table, key, index)} {what}", hint=fix)
-
-
-def _known(where: _Where, table: str, data: Mapping[str, Any], allowed: tuple[str, ...],
-           index: int = 0) -> None:
-    for key in data:
-        if key not in allowed:
-            _fail(where, table, key, "is not a known key",
-                  f"use one of: {', '.join(allowed)}", index)
-
-
-def _get(where: _Where, table: str, data: Mapping[str, Any], key: str, kind: type | tuple[type, ...],
-         default: Any, choices: tuple[Any, ...] | None = None, index: int = 0) -> Any:
-    if key not in data:
-        return default
-    value = data[key]
-    kinds = kind if isinstance(kind, tuple) else (kind,)
-    if float in kinds and isinstance(value, int) and not isinstance(value, bool):
-        value = float(value)
-    if not isinstance(value, kinds) or (isinstance(value, bool) and bool not in kinds):
-        names = " or ".join(k.__name__ for k in kinds)
-        _fail(where, table, key, f"must be {names}, got {value!r}", f"write {key} as a {names}",
-              index)
-    if choices is not None and value not in choices:
-        _fail(where, table, key, f"got {value!r}",
-              f"use one of: {', '.join(repr(c) for c in choices)}", index)
-    return value
+# The audit's stage name for rows the schema quarantined; no stage may take it.
+QUARANTINE_STAGE = "schema"
 
 
 def _columns(where: _Where, data: Mapping[str, Any]) -> tuple[ColumnRule, ...]:
@@ -124,7 +69,8 @@ def _columns(where: _Where, data: Mapping[str, Any]) -> tuple[ColumnRule, ...]:
     return tuple(rules)
 
 
-def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
+def _input(where: _Where, data: Mapping[str, Any], base: Path,
+           trusted: TrustedCode) -> InputSettings:
     keys = ("path", "label", "id", "ignore", "features", "schema", "on_invalid", "columns",
             "protect", "protect_file")
     _known(where, "input", data, keys)
@@ -135,20 +81,22 @@ def _input(where: _Where, data: Mapping[str, Any], base: Path) -> InputSettings:
     features = _get(where, "input", data, "features", list, None)
     protect_file = _get(where, "input", data, "protect_file", str, None)
     return InputSettings(
-        path=(base / _get(where, "input", data, "path", str, "")).resolve(),
+        path=_path(where, "input", "path", base, _get(where, "input", data, "path", str, "")),
         label=_get(where, "input", data, "label", str, ""),
         id=_get(where, "input", data, "id", str, None),
         ignore=tuple(_get(where, "input", data, "ignore", list, [])),
         features=tuple(features) if features is not None else None,
-        schema=_schema_ref(where, data, base),
+        schema=_schema_ref(where, data, base, trusted),
         on_invalid=_get(where, "input", data, "on_invalid", str, "stop", ON_INVALID),
         columns=_columns(where, _get(where, "input", data, "columns", dict, {})),
         protect=tuple(_get(where, "input", data, "protect", list, [])),
-        protect_file=(base / protect_file).resolve() if protect_file else None,
+        protect_file=_path(where, "input", "protect_file", base, protect_file)
+        if protect_file else None,
     )
 
 
-def _schema_ref(where: _Where, data: Mapping[str, Any], base: Path) -> str | None:
+def _schema_ref(where: _Where, data: Mapping[str, Any], base: Path,
+                trusted: TrustedCode) -> str | None:
     ref = _get(where, "input", data, "schema", str, None)
     if ref is None:
         return None
@@ -157,7 +105,10 @@ def _schema_ref(where: _Where, data: Mapping[str, Any], base: Path) -> str | Non
         _fail(where, "input", "schema", f"got {ref!r}",
               "write it as \"path/to/file.py:ClassName\" or \"package.module:ClassName\"")
     if module.endswith(".py"):
-        module = str((base / module).resolve())
+        module = str(_path(where, "input", "schema", base, module))
+    problem = refusal(module, _path(where, "input", "schema", base, "."), trusted)
+    if problem:
+        _fail(where, "input", "schema", *problem)
     return f"{module}:{cls}"
 
 
@@ -173,59 +124,94 @@ def _space(where: _Where, data: Mapping[str, Any]) -> SpaceSettings:
                 _fail(where, "space", "weights", f"weight of {column!r} is {w!r}",
                       "weights are numbers >= 0")
         weights = {c: float(w) for c, w in weights.items()}
-    try:
-        return SpaceSettings(
-            scale=_get(where, "space", data, "scale", str, "range", SCALES),
-            distance=_get(where, "space", data, "distance", str, "euclidean", DISTANCES),
-            missing=_get(where, "space", data, "missing", str, "stop", MISSING_POLICIES),
-            weights=weights,  # type: ignore[arg-type]
-        )
-    except PipelineFileError as err:
-        raise PipelineFileError(f"{where.at('space')}: {err.message}", hint=err.hint) from None
+    scale = _get(where, "space", data, "scale", str, "range", SCALES)
+    distance = _get(where, "space", data, "distance", str, "euclidean", DISTANCES)
+    missing = _get(where, "space", data, "missing", str, "stop", MISSING_POLICIES)
+    try:  # the checks that span keys; each key alone was checked above, with its line
+        return SpaceSettings(scale=scale, distance=distance, missing=missing,
+                             weights=weights)  # type: ignore[arg-type]
+    except PipelineFileError as err:  # its message names [space] already: give the line only
+        raise PipelineFileError(f"{where.here('space', None)}: {err.message}",
+                                hint=err.hint) from None
 
 
 def _classes(where: _Where, body: Mapping[str, Any], index: int) -> str | tuple[Any, ...]:
     value = body.get("classes", "all")
     if isinstance(value, list) and value:
         return tuple(value)
-    if value in CLASS_CHOICES:
-        return str(value)
+    if isinstance(value, str) and canonical(value, CLASS_CHOICES) is not None:
+        return str(canonical(value, CLASS_CHOICES))
     _fail(where, "stages", "classes", f"got {value!r}",
           "use \"all\", \"all-but-smallest\" or a non-empty list of labels", index)
     return "all"
 
 
-def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
+def _method(where: _Where, body: Mapping[str, Any], index: int) -> str:
+    """The stage's method key; a missing one names the misspelled key that was meant."""
+    keys = sorted(METHODS)
     if "method" not in body:
+        typo = next((k for k in body if k not in STAGE_KEYS and suggest(k, ("method",))), None)
+        if typo is not None:
+            _fail(where, "stages", typo, "is not a known key" + suggest(typo, ("method",))
+                  + " The stage has no 'method'.", f"write method = one of: {', '.join(keys)}",
+                  index)
         _fail(where, "stages", None, "has no 'method'",
-              f"add method = one of: {', '.join(sorted(METHODS))}", index)
+              f"add method = one of: {', '.join(keys)}", index)
     key = body["method"]
-    if key not in METHODS:
-        _fail(where, "stages", "method", f"names an unknown method {key!r}",
-              f"use one of: {', '.join(sorted(METHODS))}", index)
+    if canonical(key, tuple(keys)) is None:
+        _fail(where, "stages", "method", f"names an unknown method {key!r}" + suggest(key, keys),
+              f"use one of: {', '.join(keys)}", index)
+    return str(canonical(key, tuple(keys)))
+
+
+def _stage(where: _Where, body: Mapping[str, Any], index: int) -> StageSettings:
+    key = _method(where, body, index)
     info = METHODS[key]
     given = {k: v for k, v in body.items() if k not in STAGE_KEYS}
+    # check_params stops at the first bad parameter in this order: its line is the one named
+    bad = next((k for k in given if info.param(k) is None or info.param(k).problem(given[k])), None)  # type: ignore[union-attr]
     try:
-        params = check_params(info, given)
+        params = check_params(info, given, where=where.at("stages", bad, index, name_key=False))
     except UsageError as err:
-        bad = next((k for k in given if info.param(k) is None or info.param(k).problem(given[k])), None)  # type: ignore[union-attr]
-        raise PipelineFileError(f"{where.at('stages', bad, index)}: {err.message}",
-                                hint=err.hint) from None
-    share = _get(where, "stages", body, "max_removed_share", float, 0.5, index=index)
+        raise PipelineFileError(err.message, hint=err.hint) from None
+    default_share, keep_every_class = info.default_limit()
+    share = _get(where, "stages", body, "max_removed_share", float, default_share, index=index)
     if not 0.0 <= share <= 1.0:
         _fail(where, "stages", "max_removed_share", f"got {share!r}",
               "use a share from 0.0 to 1.0 (1.0 switches the limit off)", index)
     seed = _get(where, "stages", body, "seed", int, None, index=index)
     return StageSettings(name=_get(where, "stages", body, "name", str, f"{index + 1}: {key}", index=index),
                          method=key, params=params, max_removed_share=share,
-                         classes=_classes(where, body, index), seed=seed)
+                         classes=_classes(where, body, index), seed=seed,
+                         keep_every_class=keep_every_class and "max_removed_share" not in body)
+
+
+def _check_names(where: _Where, bodies: list[Any], stages: tuple[StageSettings, ...]) -> None:
+    """Stage names tell the stages apart in the audit: refuse empty, repeated or reserved ones."""
+    seen: dict[str, int] = {}
+    for index, (body, stage) in enumerate(zip(bodies, stages, strict=True)):
+        key = "name" if "name" in body else None
+        name = " ".join(stage.name.split()).casefold()
+        if not name:
+            _fail(where, "stages", key, "has an empty name",
+                  "give every stage a name of its own (the audit's stage column shows it)", index)
+        if name == QUARANTINE_STAGE:
+            _fail(where, "stages", key, f"is named {stage.name!r}, the audit's name for rows the "
+                  "schema quarantined", "give the stage another name", index)
+        if name in seen:
+            _fail(where, "stages", key, f"has the same name as stage {seen[name] + 1}: "
+                  f"{stage.name!r} (names are compared ignoring case and extra spaces)",
+                  "give every stage a name of its own, so that the audit can tell them apart",
+                  index)
+        seen[name] = index
 
 
 def _run(where: _Where, data: Mapping[str, Any], cluster: str | None = None) -> RunSettings:
     _known(where, "run", data, ("seed", "backend", "memory_mb", "recall_target"))
     memory = _get(where, "run", data, "memory_mb", int, 1024)
-    if memory < 16:
-        _fail(where, "run", "memory_mb", f"got {memory}", "give at least 16 (megabytes)")
+    if memory < MIN_MEMORY_MB:
+        _fail(where, "run", "memory_mb", f"got {memory}",
+              f"give at least {MIN_MEMORY_MB} (megabytes)")
     target = _get(where, "run", data, "recall_target", float, 0.99)
     if not 0.0 < target <= 1.0:
         _fail(where, "run", "recall_target", f"got {target!r}",
@@ -244,8 +230,9 @@ def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
             raise UsageError(f"[cluster] address {address!r} is not an address",
                              hint="write a scheduler address such as \"tcp://10.0.0.5:8786\", "
                                   "or \"local:2\"")
-    except UsageError as err:
-        _fail(where, "cluster", "address", err.message, str(err.hint))
+    except UsageError as err:  # its message names [cluster] address already: give the line only
+        raise PipelineFileError(f"{where.here('cluster', 'address')}: {err.message}",
+                                hint=err.hint) from None
     for key, low in (("partitions", 1), ("retries", 0), ("block_rows", 1)):
         value = _get(where, "cluster", data, key, int, None)
         if value is not None and value < low:
@@ -259,8 +246,12 @@ def _cluster(where: _Where, data: Mapping[str, Any]) -> ClusterSettings:
 
 
 def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: str = "<dict>",
-                   text: str = "") -> Spec:
+                   text: str = "", trust_code: Iterable[str | Path] = ()) -> Spec:
     """Check a pipeline given as a dictionary (the parsed TOML) and fill defaults.
+
+    ``base`` is the folder relative paths start from, and the one folder a
+    schema module may load from unless ``trust_code`` names more folders or
+    modules (see :mod:`curate.io.trust`).
 
     Examples
     --------
@@ -291,12 +282,15 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
     output = dict(data.get("output", {}))
     _known(where, "output", output, ("folder", "overwrite", "scores", "report"))
     cluster = _cluster(where, dict(data.get("cluster", {})))
+    checked = tuple(_stage(where, dict(body), i) for i, body in enumerate(stages))
+    _check_names(where, stages, checked)
+    folder = _get(where, "output", output, "folder", str, "runs/latest")
     return Spec(
-        input=_input(where, dict(data["input"]), base),
+        input=_input(where, dict(data["input"]), base, trusted_code(trust_code)),
         space=_space(where, dict(data.get("space", {}))),
-        stages=tuple(_stage(where, dict(body), i) for i, body in enumerate(stages)),
+        stages=checked,
         output=OutputSettings(
-            folder=(base / _get(where, "output", output, "folder", str, "runs/latest")).resolve(),
+            folder=_path(where, "output", "folder", base, folder),
             overwrite=_get(where, "output", output, "overwrite", bool, False),
             scores=_get(where, "output", output, "scores", bool, True),
             report=_get(where, "output", output, "report", bool, True),
@@ -309,8 +303,11 @@ def spec_from_dict(data: Mapping[str, Any], *, base: Path | str = ".", source: s
     )
 
 
-def load_spec(path: str | Path) -> Spec:
+def load_spec(path: str | Path, *, trust_code: Iterable[str | Path] = ()) -> Spec:
     """Read and check a pipeline file.
+
+    A schema module (``[input] schema``) is code: it may load only from the
+    pipeline file's folder, or from the folders and modules in ``trust_code``.
 
     Examples
     --------
@@ -325,12 +322,16 @@ def load_spec(path: str | Path) -> Spec:
         raise PipelineFileError(f"pipeline file {path} does not exist",
                                 hint="check the path, or run `curate demo` to see a working "
                                      "pipeline file")
-    raw = path.read_bytes()
     try:
+        raw = path.read_bytes()
         text = raw.decode("utf-8")
         data = tomllib.loads(text)
+    except OSError as err:
+        raise PipelineFileError(f"pipeline file {path} cannot be read: {err.strerror}",
+                                hint="check the file's permissions") from None
     except (UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
         raise PipelineFileError(f"pipeline file {path} is not valid TOML: {err}",
                                 hint="fix the syntax at the line named; strings need quotes") from None
-    spec = spec_from_dict(data, base=path.parent, source=str(path), text=text)
+    spec = spec_from_dict(data, base=path.parent, source=str(path), text=text,
+                          trust_code=trust_code)
     return replace(spec, sha256=hashlib.sha256(raw).hexdigest())
