@@ -16,7 +16,6 @@ caller checks them with exact distances.
 
 from __future__ import annotations
 
-import numba
 import numpy as np
 
 from curate.neighbours._fast import (
@@ -31,11 +30,12 @@ from curate.neighbours._fast import (
 )
 from curate.neighbours._kernels import _insert
 from curate.neighbours._plan import Plan, make_request, run_tasks
+from curate.neighbours.jit import compiled
 
 __all__ = ["cross_search"]
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled(nogil=True)
 def _scan_cross(tile: np.ndarray, r0: int, j0: int, row_norms: np.ndarray,
                 col_norms: np.ndarray, own: np.ndarray, vals: np.ndarray, idx: np.ndarray,
                 thr: np.ndarray, col_thr: np.ndarray, out_r: np.ndarray, out_j: np.ndarray,
