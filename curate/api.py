@@ -26,7 +26,7 @@ __all__ = ["run", "selection_files", "update", "write_result"]
 
 
 def _as_spec(pipeline: str | Path | Mapping[str, Any] | Spec, base: str | Path,
-             trust_code: Iterable[str | Path]) -> Spec:
+             trust_code: Iterable[str | Path] = ()) -> Spec:
     if isinstance(pipeline, Spec):
         return pipeline
     if isinstance(pipeline, Mapping):
@@ -138,7 +138,8 @@ def write_result(result: RunResult, claim: Claim, report: bool = True,
     files = selection_files(result)
     files += [OutputFile(name, frame.write_parquet, int(frame.estimated_size()))
               for name, frame in (("audit.parquet", result.audit),
-                                  ("protected.parquet", result.spared)) if frame is not None]
+                                  ("protected.parquet", result.spared),
+                                  ("flagged.parquet", result.flagged)) if frame is not None]
     files.append(OutputFile.text("summary.json",
                                  json.dumps(result.summary, indent=2, default=str) + "\n"))
     if report:

@@ -20,7 +20,7 @@ from curate.report.html import over_limit_notes
 from curate.settings import Param
 
 __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "methods_text",
-           "review_text", "summary_text"]
+           "ranking_text", "review_text", "summary_text"]
 
 
 def summary_text(summary: dict[str, Any], out: Path, seconds: float | None = None) -> str:
@@ -209,6 +209,35 @@ def _detection_text(title: str, block: Mapping[str, Any]) -> list[str]:
     lines.append("  recall = found / faulty; faulty: the training rows (over all folds) with a "
                  "fault the stage is meant to catch that reached it; all stages: every fault")
     return lines
+
+
+def ranking_text(e: Mapping[str, Any]) -> str:
+    """The ranked comparison of variants, ending with the recommendation, for the terminal.
+
+    Examples
+    --------
+    >>> row = {"rank": 1, "variant": "no curation", "accuracy": 0.9, "balanced_accuracy": 0.9,
+    ...        "kept_share": 1.0, "difference_to_none": 0.0, "p_value_to_none": 1.0,
+    ...        "difference_to_best": 0.01, "p_value_to_best": 0.5, "model": "knn", "k": 1}
+    >>> print(ranking_text({"folds": 5, "repeats": 1, "seed": 0, "rows": 10, "ranking": [row],
+    ...                     "recommendation": "keep every row"}).splitlines()[-1])
+    keep every row
+    """
+    first = e["ranking"][0]
+    by = f"{first['k']}-NN" if first["k"] is not None else str(first["model"])
+    lines = [f"stratified {e['folds']}-fold cross-validation x {e['repeats']} repeat(s), seed "
+             f"{e['seed']}, {e['rows']:,} rows; every variant on the same folds, test folds "
+             f"never curated; ranked by {by} accuracy", "",
+             f"{'':>3} {'variant':<34}{'accuracy':>9}{'bal.acc':>9}{'kept':>7}"
+             f"{'vs none':>9}{'p':>7}{'vs best':>9}{'p':>7}"]
+    for r in e["ranking"]:
+        lines.append(f"{r['rank']:>3} {str(r['variant'])[:33]:<34}{_fixed(r['accuracy'], 9)}"
+                     f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['kept_share'], 7, 2)}"
+                     f"{_fixed(r['difference_to_none'], 9, 3, True)}"
+                     f"{_fixed(r['p_value_to_none'], 7, 2)}"
+                     f"{_fixed(r['difference_to_best'], 9, 3, True)}"
+                     f"{_fixed(r['p_value_to_best'], 7, 2)}")
+    return "\n".join([*lines, "", e["recommendation"]])
 
 
 def evaluation_text(e: Mapping[str, Any]) -> str:

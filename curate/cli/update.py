@@ -43,6 +43,7 @@ def add_commands(sub: Any) -> None:
     p = sub.add_parser("update", help="add new rows to a run folder without recomputing "
                        "everything, and write the updated run folder")
     p.add_argument("pipeline", help="the pipeline file the run used")
+    add_trust_option(p)
     p.add_argument("--run", required=True, metavar="DIR", help="the run folder to start from "
                    "(only read)")
     p.add_argument("--new", required=True, metavar="FILE", help="the new rows: a CSV or "
@@ -57,5 +58,4 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.add_argument("--memory-mb", type=int, help="memory for neighbour queries, in MB")
     p.add_argument("--backend", help="neighbour engine: " + ", ".join(BACKENDS))
-    add_trust_option(p)
     p.set_defaults(func=cmd_update)

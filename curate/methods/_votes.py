@@ -193,6 +193,5 @@ def add_vote_records(out: SelectionBuilder, positions: np.ndarray, rows: np.ndar
     distinct, which = np.unique(votes, axis=0, return_inverse=True)
     words = [describe_votes(v[:-1], names, int(v[-1])) for v in distinct]
     out.add_many(positions, "knn-disagrees",
-                 [words[w] + note + suffix for w, note in zip(which.reshape(-1).tolist(), notes,
-                                                               strict=True)],
+                 [words[w] + note + suffix for w, note in zip(which.reshape(-1), notes, strict=True)],
                  neighbours=lines, distances=dist[rows], step=step)

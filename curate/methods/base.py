@@ -30,13 +30,12 @@ class MethodInfo:
     ``compares_classes`` (its input needs two or more classes, and every class
     more rows than ``k``), ``runs_partitioned`` (on a cluster it runs per
     stratified partition, then over their union, instead of sending its
-    neighbour queries to the workers), ``judged_by_lists`` (its result is a
+    neighbour queries to the workers). ``catches`` names the kinds of fault
+    (:data:`curate.settings.FAULT_KINDS`) the method is meant to find, against
+    which `curate evaluate --truth` scores its recall. ``judged_by_lists``: its result is a
     function of every row's k nearest rows of the stage, found in one
     whole-stage search: a run keeps those lists, and an update brings them up
-    to date and runs the method again on them).
-    ``catches`` names the kinds of fault
-    (:data:`curate.settings.FAULT_KINDS`) the method is meant to find, against
-    which `curate evaluate --truth` scores its recall.
+    to date and runs the method again on them.
     """
 
     key: str
@@ -50,7 +49,6 @@ class MethodInfo:
     uses_neighbours: bool = True
     compares_classes: bool = False
     runs_partitioned: bool = False
-    judged_by_lists: bool = False
     catches: tuple[str, ...] = ()
 
     def default_limit(self) -> tuple[float, bool]:
@@ -83,6 +81,7 @@ class MethodInfo:
         if keep:
             return "any share of a class, but every class keeps at least one row"
         return f"at most {share:.0%} of each class (max_removed_share = {share:g})"
+    judged_by_lists: bool = False
 
     def defaults(self) -> dict[str, Any]:
         """Return the default of every parameter."""
@@ -101,6 +100,11 @@ class Selection:
     parallel to ``removed``. ``kept_as`` is -1 where no kept row stands for the
     removed one; ``step`` is 1 for methods that do not iterate. ``info`` carries
     method-level facts for the summary (JSON-serialisable).
+
+    Label-noise methods may flag rows without removing them: ``action`` is
+    ``"relabel"`` or ``"report"`` and ``flagged`` holds their records (a
+    Selection in which they are the removed rows). ``suggested`` has one
+    entry per row, the label a method suggests for it, None elsewhere.
     """
 
     kept: np.ndarray
@@ -114,6 +118,9 @@ class Selection:
     info: dict[str, Any] = field(default_factory=dict)
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     groups: list[np.ndarray] = field(default_factory=list)
+    flagged: Selection | None = None
+    suggested: np.ndarray | None = None
+    action: str = "remove"
 
     @property
     def n(self) -> int:

@@ -24,8 +24,8 @@ from curate.settings import StageSettings
 from curate.space.labels import class_sizes, encode_labels
 from curate.space.points import Space
 
-__all__ = ["Step", "check_k", "looks_continuous", "removable_rows", "run_stage", "run_step",
-           "safety_breach", "verify_partition"]
+__all__ = ["Step", "check_folds", "check_k", "looks_continuous", "removable_rows", "run_stage",
+           "run_step", "safety_breach", "verify_partition"]
 
 
 def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray) -> np.ndarray:
@@ -75,6 +75,22 @@ def looks_continuous(labels: np.ndarray) -> bool:
     if len(distinct) < 10:
         return False
     return bool(np.any(distinct != np.round(distinct)) or len(distinct) * 4 > len(labels))
+
+
+def check_folds(stage: StageSettings, labels: np.ndarray) -> None:
+    """Stop before a cross-validating stage runs when a class has fewer rows than ``folds``."""
+    folds = stage.params.get("folds")
+    if not isinstance(folds, int) or isinstance(folds, bool) or len(labels) == 0:
+        return
+    values, counts = np.unique(labels.astype(str), return_counts=True)
+    if len(values) > 1 and counts.min() < folds:
+        small = values[np.argmin(counts)]
+        raise UsageError(f"stage {stage.name!r}: folds = {folds}, but class {str(small)!r} has "
+                         f"only {counts.min()} rows in its input; each fold needs a row of "
+                         "every class",
+                         hint=f"lower folds to {counts.min()}" if counts.min() >= 2 else
+                         "a class of one row cannot be cross-validated: fix or drop that row "
+                         "first")
 
 
 def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray) -> None:
@@ -129,8 +145,9 @@ def _limit_hint(stage: StageSettings) -> str:
 
 
 def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
-                  ids: list[Any]) -> SafetyLimitError | None:
-    """The error a run stops with when the stage removes too much of a class, else None."""
+                  ids: list[Any], verb: str = "remove") -> SafetyLimitError | None:
+    """The error a run stops with when the stage removes (or relabels) too much of a class,
+    else None."""
     off = stage.max_removed_share >= 1.0 and not stage.keep_every_class
     if off or len(removed_local) == 0:
         return None
@@ -149,7 +166,7 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
             limit = (f"({gone / total:.0%}), over its limit max_removed_share = "
                      f"{stage.max_removed_share:g}")
         return SafetyLimitError(
-            f"stage {stage.name!r} ({stage.method}) would remove {gone} of "
+            f"stage {stage.name!r} ({stage.method}) would {verb} {gone} of "
             f"{counted(total, 'row')} of class {quoted(value)} {limit}; {first_ids(rows)}",
             hint=_limit_hint(stage))
     return None
@@ -162,6 +179,7 @@ def run_stage(stage: StageSettings, space: Space, labels: np.ndarray, protected:
     removable = removable_rows(stage, labels, protected)
     if info.uses_neighbours:
         check_k(stage, labels, removable)
+    check_folds(stage, labels)
     stage_seed = stage.seed if stage.seed is not None else seed
     if space.engine.cluster_address is not None:
         return run_on_cluster(info, space, labels, removable=removable, seed=stage_seed,
@@ -204,4 +222,7 @@ def run_step(stage: StageSettings, space: Space, labels: np.ndarray, protected: 
     if calls:
         sel.info["engine"] = summarise_calls(calls)
     verify_partition(sel, space.n, stage)
+    if sel.action == "relabel" and sel.flagged is not None:
+        # Relabelling half a class is as suspect as removing it: the same limit holds.
+        return Step(sel, safety_breach(stage, labels, sel.flagged.removed, ids, "relabel"))
     return Step(sel, safety_breach(stage, labels, sel.removed, ids))

@@ -181,4 +181,5 @@ def _assemble(prep: Prepared, audit: AuditLog, copied: list[pl.DataFrame],
     summary = build_summary(prep, outcomes, kept_positions, table, seconds)
     summary["engine"].update(_engine_facts(prep, outcomes))
     return RunResult(table, summary, prep, kept_positions, scores,
-                     spared.frame(unique_ids=False) if len(prep.protected) else None, outcomes)
+                     spared.frame(unique_ids=False) if len(prep.protected) else None,
+                     outcomes=outcomes)

@@ -93,4 +93,7 @@ def evaluation_section(e: Mapping[str, Any]) -> str:
                       "accuracy against k, with and without curation")
     warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
                        for w in [*e.get("warnings", []), *over_limit_notes(e)])
-    return intro + warnings + facts + table(head, rows, wide=True) + best_text + plot + _noise(e)
+    from curate.report.ranking import ranking_html
+
+    return (intro + ranking_html(e) + warnings + facts + table(head, rows, wide=True) + best_text
+            + plot + _noise(e))

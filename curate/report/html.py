@@ -22,7 +22,7 @@ from curate.report.evaluation import evaluation_section, over_limit_notes
 if TYPE_CHECKING:
     from curate.pipeline.records import RunResult
 
-__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "over_limit_notes", "render_run", "table"]
+__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "image", "over_limit_notes", "render_run", "table"]
 
 CAUTIONS = (
     "Removing rows can strip genuine rare cases and minority groups: editing treats the unusual "
@@ -128,11 +128,17 @@ def _classes(s: Mapping[str, Any]) -> str:
 
 
 def _reasons_of_valid(result: RunResult, pick: np.ndarray) -> np.ndarray:
-    """Removal reason of the rows ``pick`` of the space (valid rows), empty text for kept rows."""
+    """Removal reason of the rows ``pick`` of the space (valid rows), empty text for kept rows;
+    ``flagged, kept: <reason>`` for kept rows a label-noise stage flagged."""
     prep = result.prepared
     ids = prep.ids.gather(prep.valid_positions[pick])
-    frame = pl.DataFrame({"row_id": ids}).join(result.audit.select("row_id", "reason"),
-                                               on="row_id", how="left", maintain_order="left")
+    marks = result.audit.select("row_id", "reason")
+    if result.flagged is not None and result.flagged.height:
+        flagged = result.flagged.unique("row_id", keep="last", maintain_order=True).select(
+            "row_id", ("flagged, kept: " + pl.col("reason")).alias("reason"))
+        marks = pl.concat([marks, flagged.filter(~pl.col("row_id").is_in(marks["row_id"].implode()))])
+    frame = pl.DataFrame({"row_id": ids}).join(marks, on="row_id", how="left",
+                                               maintain_order="left")
     return frame["reason"].fill_null("").to_numpy().astype(str)
 
 
@@ -217,11 +223,16 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
     (True, True)
     """
     s = result.summary
+    from curate.report.doubt import doubt_section
+
     parts = [section("headline", "Headline", _headline(s)),
              section("flow", "Stage by stage", _flow(s)),
              section("classes", "Class balance", _classes(s)),
              section("projection", "Where the removed rows lie", _projection(result)),
              section("distances", "Nearest-neighbour distances", _distances(result))]
+    doubt = doubt_section(result)
+    if doubt:
+        parts.insert(4, section("doubt", "Doubt about labels", doubt))
     if evaluation is not None:
         parts.append(section("evaluation", "Evaluation", evaluation_section(evaluation)))
     parts.append(section("cautions", "Cautions", _cautions()))
