@@ -33,11 +33,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import shutil
-import subprocess
 import sys
-import tempfile
-import threading
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -48,7 +44,13 @@ import polars as pl
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from benchmarks.common import load_note, make_data, target_line  # noqa: E402
+from benchmarks.common import (  # noqa: E402
+    load_note,
+    make_data,
+    run_child,
+    scratch_folder,
+    target_line,
+)
 
 LABEL, ID = "label", "sample_id"
 PARTS = 4  # input files in the Parquet folder
@@ -114,44 +116,17 @@ class RunFigures:
     folder: Path
 
 
-def _pump(stream: Any, prefix: str) -> None:
-    for line in iter(stream.readline, ""):
-        print(f"{prefix}{line}", end="", flush=True)
-
-
 def run_curate(pipeline: Path, out: Path, backend: str, memory_mb: int | None,
                timeout: float) -> RunFigures:
-    """Run ``python -m curate run`` in a child process and measure it alone.
-
-    ``os.wait4`` returns the resource usage of that one child, so its
-    ``ru_maxrss`` (KiB on Linux) is the run's own peak, whatever ran before.
-    """
+    """Run ``python -m curate run`` in a child process and measure it alone (``run_child``)."""
     cmd = [sys.executable, "-m", "curate", "run", str(pipeline), "--out", str(out),
            "--overwrite", "--backend", backend]
     if memory_mb:
         cmd += ["--memory-mb", str(memory_mb)]
-    print("$ " + " ".join(cmd), flush=True)
-    start = time.perf_counter()
-    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True,
-                            cwd=Path(__file__).resolve().parents[1])
-    pump = threading.Thread(target=_pump, args=(proc.stdout, f"  [{backend}] "), daemon=True)
-    pump.start()
-    while True:
-        pid, status, usage = os.wait4(proc.pid, os.WNOHANG)
-        if pid:
-            break
-        if time.perf_counter() - start > timeout:
-            print(f"  [{backend}] stopped after {timeout:.0f} s (--timeout)", flush=True)
-            proc.kill()
-            pid, status, usage = os.wait4(proc.pid, 0)
-            break
-        time.sleep(0.2)
-    seconds = time.perf_counter() - start
-    proc.returncode = os.waitstatus_to_exitcode(status)  # reaped here, not by Popen
-    pump.join(timeout=5)
+    child = run_child(cmd, f"  [{backend}] ", timeout, cwd=Path(__file__).resolve().parents[1])
     summary_file = out / "summary.json"
-    summary = json.loads(summary_file.read_text()) if proc.returncode == 0 else None
-    return RunFigures(backend, seconds, usage.ru_maxrss / 1024, proc.returncode, summary, out)
+    summary = json.loads(summary_file.read_text()) if child.code == 0 else None
+    return RunFigures(backend, child.seconds, child.peak_mb, child.code, summary, out)
 
 
 def recorded_recalls(summary: dict[str, Any]) -> dict[str, float]:
@@ -292,8 +267,7 @@ def main() -> int:
     args = parser.parse_args()
     print(f"{args.rows} rows x {args.cols} columns, {args.classes} classes, {args.copies:.0%} "
           f"copies, {args.flips:.0%} flipped labels; nproc {os.cpu_count()}; start: {load_note()}")
-    folder = Path(tempfile.mkdtemp(prefix="curate-bench-"))
-    try:
+    with scratch_folder("curate-bench-", args.keep) as folder:
         start = time.perf_counter()
         frame, truth = build_table(args.rows, args.cols, args.classes, args.copies, args.flips,
                                    args.seed)
@@ -307,11 +281,6 @@ def main() -> int:
         report(frame, truth, exact, approx, args)
         print(f"end: {load_note()}")
         return 0 if exact.code == 0 and approx.code == 0 else 1
-    finally:
-        if args.keep:
-            print(f"kept {folder}")
-        else:
-            shutil.rmtree(folder, ignore_errors=True)
 
 
 if __name__ == "__main__":

@@ -15,15 +15,22 @@ code most. Compare ratios measured in one run, and say what the load was
 from __future__ import annotations
 
 import os
+import shutil
+import subprocess
+import tempfile
+import threading
 import time
 import tracemalloc
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-__all__ = ["Measurement", "load_note", "make_data", "measure", "target_line"]
+__all__ = ["Child", "Measurement", "load_note", "make_data", "measure", "run_child",
+           "scratch_folder", "target_line"]
 
 
 def make_data(rows: int, cols: int = 20, classes: int = 3,
@@ -122,3 +129,79 @@ def target_line(name: str, met: bool, detail: str) -> str:
     'TARGET 2x faster: met (ratio 2.5)'
     """
     return f"TARGET {name}: {'met' if met else 'NOT met'} ({detail})"
+
+
+@dataclass(frozen=True)
+class Child:
+    """One child process as measured from outside: wall seconds, its own peak resident MiB,
+    and its exit code."""
+
+    seconds: float
+    peak_mb: float
+    code: int
+
+
+def _pump(stream: Any, prefix: str) -> None:
+    for line in iter(stream.readline, ""):
+        print(f"{prefix}{line}", end="", flush=True)
+
+
+def run_child(cmd: list[str], prefix: str, timeout: float, cwd: Path | None = None) -> Child:
+    """Run ``cmd``, echo its output with ``prefix``, and measure it alone.
+
+    ``os.wait4`` returns the resource usage of that one child, so its
+    ``ru_maxrss`` (KiB on Linux) is the child's own peak, whatever ran before.
+    A child still running after ``timeout`` seconds is killed.
+
+    Examples
+    --------
+    >>> import sys
+    >>> child = run_child([sys.executable, "-c", "print('hi')"], "  ", 60)
+    hi
+    >>> child.code, child.seconds > 0
+    (0, True)
+    """
+    print("$ " + " ".join(cmd), flush=True)
+    start = time.perf_counter()
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True,
+                            cwd=cwd)
+    pump = threading.Thread(target=_pump, args=(proc.stdout, prefix), daemon=True)
+    pump.start()
+    while True:
+        pid, status, usage = os.wait4(proc.pid, os.WNOHANG)
+        if pid:
+            break
+        if time.perf_counter() - start > timeout:
+            print(f"{prefix}stopped after {timeout:.0f} s (--timeout)", flush=True)
+            proc.kill()
+            pid, status, usage = os.wait4(proc.pid, 0)
+            break
+        time.sleep(0.2)
+    seconds = time.perf_counter() - start
+    proc.returncode = os.waitstatus_to_exitcode(status)  # reaped here, not by Popen
+    pump.join(timeout=5)
+    if proc.stdout is not None:
+        proc.stdout.close()
+    return Child(seconds, usage.ru_maxrss / 1024, proc.returncode)
+
+
+@contextmanager
+def scratch_folder(prefix: str, keep: bool) -> Iterator[Path]:
+    """A temporary folder for a benchmark's files, removed at the end unless ``keep``.
+
+    Examples
+    --------
+    >>> with scratch_folder("curate-doc-", keep=False) as folder:
+    ...     folder.is_dir()
+    True
+    >>> folder.exists()
+    False
+    """
+    folder = Path(tempfile.mkdtemp(prefix=prefix))
+    try:
+        yield folder
+    finally:
+        if keep:
+            print(f"kept {folder}")
+        else:
+            shutil.rmtree(folder, ignore_errors=True)

@@ -23,7 +23,10 @@ HERE = Path(__file__).resolve().parent
 QUICK_ROWS = 20_000
 # Scripts whose size options are not just --rows; bench_cnn's --rows also runs
 # imbalanced-learn's quadratic CNN (about 270 s at 20,000 rows), so it gets less.
-QUICK_ARGS = {"bench_cnn": ["--rows", "2000", "--large", str(QUICK_ROWS)]}
+QUICK_ARGS = {"bench_cnn": ["--rows", "2000", "--large", str(QUICK_ROWS)],
+              "bench_noise": ["--rows", str(QUICK_ROWS), "--tables", "iris,glass", "--seeds", "1",
+                              "--flips", "uniform-10"],
+              "bench_update": ["--rows", str(QUICK_ROWS), "--new", str(QUICK_ROWS // 10)]}
 
 
 def scripts(only: list[str] | None) -> list[Path]:

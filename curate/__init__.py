@@ -4,6 +4,8 @@ The public face is small:
 
 * :func:`run` runs a pipeline (file, dictionary or checked settings) and
   returns kept, removed and audit frames and the summary;
+* :func:`update` adds new rows to a run folder, redoing only the work they cause,
+  and returns the updated run;
 * :func:`load_spec` reads and checks a pipeline file;
 * :class:`Sampler` offers every method as a scikit-learn / imbalanced-learn
   sampler (``fit_resample``).
@@ -15,7 +17,7 @@ Examples
 --------
 >>> import curate
 >>> sorted(curate.__all__)
-['Sampler', 'load_spec', 'run']
+['Sampler', 'load_spec', 'run', 'update']
 """
 
 # Imported under private names: every public name of the package is in __all__.
@@ -23,13 +25,14 @@ import importlib as _importlib
 import typing as _typing
 
 if _typing.TYPE_CHECKING:
-    from curate.api import run
+    from curate.api import run, update
     from curate.sampler import Sampler
     from curate.spec import load_spec
 
-__all__ = ["Sampler", "load_spec", "run"]
+__all__ = ["Sampler", "load_spec", "run", "update"]
 
-_HOMES = {"Sampler": "curate.sampler", "load_spec": "curate.spec", "run": "curate.api"}
+_HOMES = {"Sampler": "curate.sampler", "load_spec": "curate.spec", "run": "curate.api",
+          "update": "curate.api"}
 
 
 def __getattr__(name: str) -> object:

@@ -95,9 +95,13 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         One row per removed row, with curate's audit columns; ``row_id`` is
         the input position.
     scores_ : dict of str to ndarray
-        Per-row scores the method computed (kDN hardness), one per input row.
+        Per-row scores the method computed (kDN hardness, doubt), one per input row.
     task_ : str
         The task the step ran as, "classification" or "regression".
+    suggested_labels_ : ndarray or None
+        For label-noise methods, the label suggested for each flagged row
+        (None elsewhere), removed or kept (``action = "relabel"``); None for
+        other methods. ``y`` itself is never changed.
     n_features_in_, feature_names_in_
         As in scikit-learn.
 
@@ -229,6 +233,7 @@ class Sampler(OneToOneFeatureMixin, BaseEstimator):
         self.sample_indices_ = np.sort(sel.kept)
         self.audit_ = _audit(info, sel, labels)
         self.scores_ = dict(sel.scores)
+        self.suggested_labels_ = sel.suggested
         return _take(X, self.sample_indices_), _take(y, self.sample_indices_)
 
     def _task(self, values: np.ndarray) -> str:
@@ -346,7 +351,8 @@ def _audit(info: MethodInfo, sel: Any, labels: np.ndarray) -> pl.DataFrame:
                            pl.Series("label", labels))
     builder.add(stage=info.key, method=info.key, positions=sel.removed, reason=sel.reason,
                 detail=sel.detail, neighbours=sel.neighbours, distances=sel.distances,
-                kept_as=sel.kept_as, step=sel.step)
+                kept_as=sel.kept_as, step=sel.step,
+                suggested=None if sel.suggested is None else sel.suggested[sel.removed])
     return builder.frame()
 
 

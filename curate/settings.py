@@ -65,7 +65,8 @@ class Param:
 
     ``kind`` is the Python type accepted (``int``, ``float``, ``str``, ``bool``,
     ``list``); ``choices`` lists allowed values; ``low``/``high`` bound numbers
-    (inclusive); ``check`` is an extra predicate with its own wording.
+    (inclusive); ``check`` is an extra predicate with its own wording, and
+    ``explain``, where given, says precisely why a value fails it.
     """
 
     name: str
@@ -78,6 +79,7 @@ class Param:
     check: Callable[[Any], bool] | None = None
     check_says: str = ""
     required: bool = False
+    explain: Callable[[Any], str | None] | None = None
 
     def allowed(self) -> str:
         """Describe the allowed values in words.
@@ -121,7 +123,8 @@ class Param:
         if self.high is not None and value > self.high:
             return f"got {value!r}, expected {self.allowed()}"
         if self.check is not None and not self.check(value):
-            return f"got {value!r}, expected {self.allowed()}"
+            precise = self.explain(value) if self.explain is not None else None
+            return precise or f"got {value!r}, expected {self.allowed()}"
         return None
 
 

@@ -1,6 +1,6 @@
 """The `curate` command: parse, call, print. No logic of its own.
 
-One module per command group (:mod:`.pipeline`: run, check, distances;
+One module per command group (:mod:`.pipeline`: run, check, distances; :mod:`.update`;
 :mod:`.lookup`: why, methods; :mod:`.review`: review, diff; :mod:`.evaluate`;
 :mod:`.demo`), each adding its commands with ``add_commands``; the text they
 print is built in :mod:`.render`. Only the standard library and curate's
@@ -30,12 +30,13 @@ INTERRUPTED, BROKEN_PIPE = 130, 141
 
 def _parser() -> argparse.ArgumentParser:
     # Imported here, not at the top, so that Ctrl-C while they load is caught by main.
-    from curate.cli import demo, evaluate, lookup, pipeline, review
+    from curate.cli import demo, evaluate, lookup, pipeline, review, update
 
     parser = argparse.ArgumentParser(prog="curate", description="Clean and shrink a training "
                                      "table, with an audit of every removed row.")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     pipeline.add_commands(sub)
+    update.add_commands(sub)
     lookup.add_commands(sub)
     demo.add_commands(sub)
     evaluate.add_commands(sub)

@@ -67,8 +67,72 @@ def parse_model_params(items: Sequence[str]) -> dict[str, Any]:
     return params
 
 
+def _check_truth(truth: str | None) -> None:
+    """A missing --truth table is named before any work."""
+    if truth is not None and not Path(truth).exists():
+        raise UsageError(f"--truth {truth} does not exist",
+                         hint="give the table of known faulty rows (CSV or Parquet, with the "
+                              "input's id column and 'fault'); a relative path starts where "
+                              "curate runs, not at the pipeline file")
+
+
+def _options(args: argparse.Namespace) -> dict[str, Any]:
+    """The evaluation's settings from the command line, for one pipeline or several."""
+    return {"folds": args.folds, "repeats": args.repeats, "ks": parse_ks(args.k),
+            "model": args.model, "model_params": parse_model_params(args.model_param),
+            "inject_noise": args.inject_noise, "noise_towards": args.noise_towards,
+            "truth": args.truth, "seed": args.seed}
+
+
+def _variant_names(paths: Sequence[str]) -> list[str]:
+    """A name per pipeline file: its stem, or its path where two stems are the same.
+
+    Examples
+    --------
+    >>> _variant_names(["p/enn.toml", "p/committee.toml"])
+    ['enn', 'committee']
+    >>> _variant_names(["a/x.toml", "b/x.toml"])
+    ['a/x.toml', 'b/x.toml']
+    """
+    stems = [Path(p).stem for p in paths]
+    return stems if len(set(stems)) == len(stems) else list(paths)
+
+
+def _cmd_variants(args: argparse.Namespace) -> int:
+    """``curate evaluate`` with several pipeline files or ``--vary``: a ranked comparison."""
+    from curate.cli.progress import Reporter
+    from curate.cli.render import ranking_text
+    from curate.evaluation.crossval import evaluation_files
+    from curate.evaluation.variants import evaluate_variants, vary
+    from curate.io.output_checks import spec_inputs
+    from curate.io.outputs import claim_output
+    from curate.pipeline.prepare import prepare
+    from curate.spec import load_spec
+
+    if args.vary and len(args.pipeline) > 1:
+        raise UsageError("--vary works on one pipeline file, but several were given",
+                         hint="give one pipeline file with --vary, or several files without it")
+    _check_truth(args.truth)
+    specs = [load_spec(p, trust_code=args.trust_code) for p in args.pipeline]
+    reads = [r for spec in specs for r in spec_inputs(spec)]
+    out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
+    with Reporter(args.quiet) as say, out or nullcontext() as claim:
+        preps = [prepare(spec) for spec in specs]
+        variants = vary(preps[0], args.vary) if args.vary else \
+            list(zip(_variant_names(args.pipeline), preps, strict=True))
+        result = evaluate_variants(variants, progress=say, **_options(args))
+        if claim is not None:
+            say(f"writing {args.out}")
+            best = dict(variants)[result["variant"]]
+            claim.write_folder(evaluation_files(result, best), kind="evaluation")
+    print(json.dumps(result, indent=2) if args.json else ranking_text(result))
+    return 0
+
+
 def cmd_evaluate(args: argparse.Namespace) -> int:
     """Handler of ``curate evaluate``."""
+    if len(args.pipeline) > 1 or args.vary:
+        return _cmd_variants(args)
     from curate.cli.progress import Reporter
     from curate.cli.render import evaluation_text
     from curate.evaluation.crossval import evaluate_prepared, evaluation_files
@@ -77,23 +141,13 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
     from curate.pipeline.prepare import prepare
     from curate.spec import load_spec
 
-    ks = parse_ks(args.k)
-    if args.truth is not None and not Path(args.truth).exists():
-        raise UsageError(f"--truth {args.truth} does not exist",
-                         hint="give the table of known faulty rows (CSV or Parquet, with the "
-                              "input's id column and 'fault'); a relative path starts where "
-                              "curate runs, not at the pipeline file")
-    spec = load_spec(args.pipeline, trust_code=args.trust_code)
+    _check_truth(args.truth)
+    spec = load_spec(args.pipeline[0], trust_code=args.trust_code)
     reads = spec_inputs(spec) + ([("the fault table", Path(args.truth))] if args.truth else [])
     out = claim_output(args.out, overwrite=args.overwrite, inputs=reads) if args.out else None
     with Reporter(args.quiet) as say, out or nullcontext() as claim:
         prep = prepare(spec)
-        result = evaluate_prepared(prep, folds=args.folds, repeats=args.repeats,
-                                   ks=ks, model=args.model,
-                                   model_params=parse_model_params(args.model_param),
-                                   inject_noise=args.inject_noise,
-                                   noise_towards=args.noise_towards, truth=args.truth,
-                                   seed=args.seed, progress=say)
+        result = evaluate_prepared(prep, progress=say, **_options(args))
         if claim is not None:
             say(f"writing {args.out}")
             claim.write_folder(evaluation_files(result, prep), kind="evaluation")
@@ -113,7 +167,11 @@ def add_commands(sub: Any) -> None:
     """
     p = sub.add_parser("evaluate", help="measure, without leakage, what curation does to "
                        "classification (cross-validation; stages run on training folds only)")
-    p.add_argument("pipeline")
+    p.add_argument("pipeline", nargs="+", help="a pipeline file, or several to compare on the "
+                   "same folds")
+    p.add_argument("--vary", action="append", default=[], metavar="STAGE.KEY=V1,V2",
+                   help="compare variants of one pipeline file, such as "
+                   "mislabels.method=enn,committee (repeatable: every combination)")
     add_trust_option(p)
     p.add_argument("--folds", type=int, default=10, help="stratified folds (default 10)")
     p.add_argument("--repeats", type=int, default=1, help="repeat with seeds seed, seed+1, ...")

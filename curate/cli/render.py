@@ -20,7 +20,7 @@ from curate.report.html import over_limit_notes
 from curate.settings import Param
 
 __all__ = ["diff_text", "distances_text", "evaluation_text", "methods_table", "methods_text",
-           "review_text", "summary_text"]
+           "ranking_text", "review_text", "summary_text"]
 
 
 def summary_text(summary: dict[str, Any], out: Path, seconds: float | None = None) -> str:
@@ -39,6 +39,42 @@ def summary_text(summary: dict[str, Any], out: Path, seconds: float | None = Non
     whole = f"; whole command {seconds:.2f} s" if seconds is not None else ""
     lines.append(f"stages {summary['seconds']:.2f} s{whole}")
     lines.append(f"run folder: {out}")
+    return "\n".join(lines)
+
+
+def update_text(facts: Mapping[str, Any]) -> str:
+    """How an update went: new rows, the fitted ranges, and per stage its mode and why.
+
+    Examples
+    --------
+    >>> print(update_text({"new_rows": 5, "old_rows": 95, "refit": False,
+    ...     "rows_outside_fitted_ranges": 1, "equals_full_run": True, "stages": [
+    ...     {"name": "m", "method": "enn", "mode": "incremental", "old_rows_rejudged": 4,
+    ...      "rejudged_because": {"a new row entered its list": 4},
+    ...      "equals_full_run": True}]}))
+    update: 5 new rows added to 95; 1 new rows lie outside the run's fitted ranges
+      m (enn): incremental, 4 old rows judged again (a new row entered its list 4); equals a full run
+    the result equals a full run on old and new rows
+    """
+    head = f"update: {facts['new_rows']} new rows added to {facts['old_rows']}"
+    if facts.get("refit"):
+        head += "; space refitted (a full run)"
+    else:
+        head += (f"; {facts['rows_outside_fitted_ranges']} new rows lie outside the run's "
+                 "fitted ranges")
+    lines = [head]
+    for st in facts["stages"]:
+        line = f"  {st['name']} ({st['method']}): {st['mode']}"
+        if "why" in st:
+            line += f" ({st['why']})"
+        if "old_rows_rejudged" in st:
+            why = ", ".join(f"{k} {v}" for k, v in st.get("rejudged_because", {}).items() if v)
+            line += f", {st['old_rows_rejudged']} old rows judged again" + (f" ({why})" if why
+                                                                              else "")
+        line += "; equals a full run" if st["equals_full_run"] else "; may differ from a full run"
+        lines.append(line)
+    lines.append("the result equals a full run on old and new rows" if facts["equals_full_run"]
+                 else "the result may differ from a full run on old and new rows (see above)")
     return "\n".join(lines)
 
 
@@ -204,6 +240,35 @@ def _injected_title(n: Mapping[str, Any]) -> str:
         return (f"injected outliers ({n['rate']:.1%} of training targets moved by {low:g} to "
                 f"{high:g} standard deviations, {n['moved']:,} over all folds):")
     return f"injected noise ({n['rate']:.1%} of training labels, {n['flipped']:,} flips over all folds):"
+
+
+def ranking_text(e: Mapping[str, Any]) -> str:
+    """The ranked comparison of variants, ending with the recommendation, for the terminal.
+
+    Examples
+    --------
+    >>> row = {"rank": 1, "variant": "no curation", "accuracy": 0.9, "balanced_accuracy": 0.9,
+    ...        "kept_share": 1.0, "difference_to_none": 0.0, "p_value_to_none": 1.0,
+    ...        "difference_to_best": 0.01, "p_value_to_best": 0.5, "model": "knn", "k": 1}
+    >>> print(ranking_text({"folds": 5, "repeats": 1, "seed": 0, "rows": 10, "ranking": [row],
+    ...                     "recommendation": "keep every row"}).splitlines()[-1])
+    keep every row
+    """
+    first = e["ranking"][0]
+    by = f"{first['k']}-NN" if first["k"] is not None else str(first["model"])
+    lines = [f"stratified {e['folds']}-fold cross-validation x {e['repeats']} repeat(s), seed "
+             f"{e['seed']}, {e['rows']:,} rows; every variant on the same folds, test folds "
+             f"never curated; ranked by {by} accuracy", "",
+             f"{'':>3} {'variant':<34}{'accuracy':>9}{'bal.acc':>9}{'kept':>7}"
+             f"{'vs none':>9}{'p':>7}{'vs best':>9}{'p':>7}"]
+    for r in e["ranking"]:
+        lines.append(f"{r['rank']:>3} {str(r['variant'])[:33]:<34}{_fixed(r['accuracy'], 9)}"
+                     f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['kept_share'], 7, 2)}"
+                     f"{_fixed(r['difference_to_none'], 9, 3, True)}"
+                     f"{_fixed(r['p_value_to_none'], 7, 2)}"
+                     f"{_fixed(r['difference_to_best'], 9, 3, True)}"
+                     f"{_fixed(r['p_value_to_best'], 7, 2)}")
+    return "\n".join([*lines, "", e["recommendation"]])
 
 
 def evaluation_text(e: Mapping[str, Any]) -> str:

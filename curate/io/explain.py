@@ -1,7 +1,8 @@
 """`curate why`: what happened to one row of a written run, in plain words.
 
-Reads only ``audit.parquet`` and ``kept.parquet`` with polars, so the command
-starts without the numeric libraries the run needed.
+Reads only ``audit.parquet``, ``kept.parquet`` and, where a label-noise stage
+flagged rows it kept, ``flagged.parquet`` with polars, so the command starts
+without the numeric libraries the run needed.
 """
 
 from __future__ import annotations
@@ -47,6 +48,9 @@ def explain(run: Path, row_id: str) -> str:
         return _removal_text(record)
     kept = pl.read_parquet(run / "kept.parquet", columns=["row_id"])
     if _same_id(kept["row_id"], row_id).any():
+        flags = _flags(run, row_id)
+        if flags:
+            return f"row {row_id} was kept: no stage removed it.\n" + "\n".join(flags)
         return f"row {row_id} was kept: no stage removed it."
     raise UsageError(f"row {row_id} is not in the run {run}", hint=_id_hint(run, kept["row_id"]))
 
@@ -63,6 +67,23 @@ def _id_hint(run: Path, kept_ids: pl.Series) -> str:
     return (f"this run's row ids are 0-based input positions (kept rows include {examples})")
 
 
+def _flags(run: Path, row_id: str) -> list[str]:
+    """What label-noise stages that keep the rows they flag said about this row."""
+    path = run / "flagged.parquet"
+    if not path.exists():
+        return []
+    flagged = pl.read_parquet(path)
+    lines = []
+    for rec in flagged.filter(_same_id(flagged["row_id"], row_id)).iter_rows(named=True):
+        said = ("suggests the label" if rec["action"] == "relabel" else
+                "reported it, suggesting the label")
+        lines.append(f"  stage {rec['stage']!r} ({rec['method']}) {said} "
+                     f"{rec['suggested_label']!r} instead of {rec['label']!r}, reason "
+                     f"{rec['reason']!r}:")
+        lines.append(f"    {rec['detail']}")
+    return lines
+
+
 def _removal_text(rec: dict[str, Any]) -> str:
     lines = [f"row {rec['row_id']} (label {rec['label']!r}) was removed by stage {rec['stage']!r} "
              f"({rec['method']}), reason {rec['reason']!r}" +
@@ -70,6 +91,8 @@ def _removal_text(rec: dict[str, Any]) -> str:
              f"  {rec['detail']}"]
     if rec["kept_as"] is not None:
         lines.append(f"  the kept row standing for it: {rec['kept_as']}")
+    if rec.get("suggested_label") is not None:
+        lines.append(f"  the label the stage suggests for it: {rec['suggested_label']!r}")
     neighbours = list(zip(rec["neighbour_ids"], rec["neighbour_labels"], rec["neighbour_distances"],
                           strict=True))
     if neighbours:

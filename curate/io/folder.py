@@ -17,7 +17,7 @@ __all__ = ["RUN_FILES", "RUN_FOLDER_FILES", "run_folder"]
 
 # Every file a run folder may hold; the first four are always there, and so is the marker.
 RUN_FILES = ("kept.parquet", "removed.parquet", "audit.parquet", "summary.json", "report.html",
-             "protected.parquet", MARKER)
+             "protected.parquet", "flagged.parquet", MARKER)
 RUN_FOLDER_FILES = RUN_FILES[:4]
 
 

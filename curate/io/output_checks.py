@@ -11,7 +11,6 @@ writer recognises it as one of its own (a review CSV by its header).
 
 from __future__ import annotations
 
-import glob
 import json
 import os
 import re
@@ -20,6 +19,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from curate.errors import OutputError
+from curate.io.globbing import glob_files
 
 if TYPE_CHECKING:
     from curate.settings import Spec
@@ -162,11 +162,10 @@ def amount(size: float) -> str:
     return ""
 
 
-
-
 def _matches(path: Path) -> list[Path]:
+    # The link-safe expansion the reader uses: Python's glob follows a link loop level by level.
     if any(ch in str(path) for ch in "*?["):
-        return [Path(p) for p in glob.glob(str(path), recursive=True)]
+        return glob_files(str(path))
     return [path]
 
 

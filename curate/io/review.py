@@ -12,6 +12,7 @@ The diff of two runs is in :mod:`curate.io.diff`.
 
 from __future__ import annotations
 
+import json
 from collections.abc import Callable
 from contextlib import AbstractContextManager
 from pathlib import Path
@@ -32,7 +33,8 @@ DECISIONS = {
 }
 # The reviewer sees these first, then the input's own columns.
 _LEADING = ("row_id", "decision", "stage", "method", "reason", "detail", "kept_as", "step",
-            "neighbour_ids", "neighbour_labels", "neighbour_distances")
+            "neighbour_ids", "neighbour_labels", "neighbour_distances", "action",
+            "suggested_label", "doubt")
 
 
 def _joined(values: pl.Expr, digits: bool = False) -> pl.Expr:
@@ -44,9 +46,12 @@ def _joined(values: pl.Expr, digits: bool = False) -> pl.Expr:
 def review_table(run: str | Path) -> pl.DataFrame:
     """The removed rows of a run, with reasons, evidence and an empty ``decision`` column.
 
-    Input columns whose names clash with the review's own get `` (input)``
-    appended; the audit's ``label`` is left out (the input's label column is
-    there).
+    Rows a label-noise stage flagged but kept (``action`` relabel or report)
+    follow them; ``action`` says what the stage did (``remove`` for removed
+    rows) and ``suggested_label`` the label it suggests. When the run wrote a
+    ``doubt`` score, the most doubtful rows come first. Input columns whose
+    names clash with the review's own get `` (input)`` appended; the audit's
+    ``label`` is left out (the input's label column is there).
 
     Examples
     --------
@@ -60,17 +65,47 @@ def review_table(run: str | Path) -> pl.DataFrame:
     [(1, '', 'exact-copy', '0', 0.0)]
     """
     folder = run_folder(run)
-    audit = pl.read_parquet(folder / "audit.parquet").drop("label")
-    removed = pl.read_parquet(folder / "removed.parquet")
-    clash = {c: f"{c} (input)" for c in removed.columns if c != "row_id" and c in _LEADING}
-    removed = removed.rename(clash)
-    audit = audit.with_columns(
+    ours = _relabelled(folder)
+    table = _records(pl.read_parquet(folder / "audit.parquet"), "remove",
+                     pl.read_parquet(folder / "removed.parquet").drop(ours))
+    if (folder / "flagged.parquet").is_file():
+        flagged = pl.read_parquet(folder / "flagged.parquet")
+        rows = pl.concat([pl.read_parquet(folder / name).drop(ours)
+                          for name in ("kept.parquet", "removed.parquet")])
+        extra = _records(flagged.drop("action"), flagged["action"], rows)
+        table = pl.concat([table, extra], how="diagonal_relaxed")
+    # Rows no label-noise stage scored have NaN: they go last, like missing values.
+    table = table.with_columns(pl.col("doubt").fill_nan(None))
+    if table["doubt"].is_not_null().any():
+        table = table.sort("doubt", descending=True, nulls_last=True, maintain_order=True)
+    return table
+
+
+def _relabelled(folder: Path) -> list[str]:
+    """``["suggested_label"]`` when a stage of the run relabelled (the column is curate's
+    then, not the input's: a relabelling run refuses an input column of that name)."""
+    summary = json.loads((folder / "summary.json").read_text(encoding="utf-8"))
+    relabels = any(s.get("params", {}).get("action") == "relabel" for s in summary["stages"])
+    return ["suggested_label"] if relabels else []
+
+
+def _records(audit: pl.DataFrame, action: str | pl.Series, rows: pl.DataFrame) -> pl.DataFrame:
+    """Audit records joined with the rows they describe, in the review's column order."""
+    clash = {c: f"{c} (input)" for c in rows.columns
+             if c not in ("row_id", "doubt") and c in _LEADING}
+    rows = rows.rename(clash)
+    if "doubt" not in rows.columns:
+        rows = rows.with_columns(pl.lit(None, dtype=pl.Float64).alias("doubt"))
+    audit = audit.drop("label").with_columns(
         pl.lit("", dtype=pl.String).alias("decision"),
+        (pl.lit(action, dtype=pl.String) if isinstance(action, str) else pl.lit(action))
+        .alias("action"),
         _joined(pl.col("neighbour_ids")), _joined(pl.col("neighbour_labels")),
         _joined(pl.col("neighbour_distances"), digits=True),
-        pl.col("kept_as").cast(pl.String).fill_null(""))
-    table = audit.join(removed, on="row_id", how="left", maintain_order="left")
-    return table.select(*_LEADING, *[c for c in removed.columns if c != "row_id"])
+        pl.col("kept_as").cast(pl.String).fill_null(""),
+        pl.col("suggested_label").cast(pl.String))
+    table = audit.join(rows, on="row_id", how="left", maintain_order="left")
+    return table.select(*_LEADING, *[c for c in rows.columns if c not in _LEADING])
 
 
 def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -> int:

@@ -2,8 +2,9 @@
 
 A method lives in the module of its family (:mod:`.duplicates`, :mod:`.editing`
 and :mod:`.cleaning`, :mod:`.condensing` and :mod:`.one_sided`, :mod:`.hybrid`,
-:mod:`.scores`); what families share is in :mod:`.base` and in the private
-helper modules (``_votes``, ``_neighbourhood``, ``_store``), never in another
+:mod:`.scores`, :mod:`.noise`); what families share is in :mod:`.base` and in the
+private helper modules (``_votes``, ``_neighbourhood``, ``_store``; the label-noise
+family's ``_members``, ``_oof``, ``_confident``, ``_flags``), never in another
 family. Adding a method means declaring it in its family module and listing its
 declaration in the :func:`register` call below.
 
@@ -31,6 +32,7 @@ from curate.methods.discretized import make_discretized
 from curate.methods.duplicates import CONFLICTING, EXACT, NEAR
 from curate.methods.editing import ALL_KNN, ENN, RENN
 from curate.methods.hybrid import DROP3, ICF
+from curate.methods.noise import CLASS_THRESHOLDS, COMMITTEE, IPF
 from curate.methods.one_sided import OSS
 from curate.methods.reg_duplicates import REG_CONFLICTING
 from curate.methods.regression import REG_CNN, REG_ENN, REG_HARDNESS
@@ -75,7 +77,7 @@ def register(*infos: MethodInfo) -> dict[str, MethodInfo]:
 # Built once at import and never changed by curate (tests may add a method for a test).
 METHODS: dict[str, MethodInfo] = register(
     EXACT, CONFLICTING, ENN, RENN, ALL_KNN, TOMEK_LINKS, NCR, DROP3, ICF, NEAR, HARDNESS,
-    CNN, FCNN, RNN, OSS)
+    CNN, FCNN, RNN, OSS, COMMITTEE, IPF, CLASS_THRESHOLDS)
 
 # The classification methods that can run on target bins (they compare classes).
 _ON_BINS = {key: info for key, info in METHODS.items() if info.compares_classes}

@@ -81,6 +81,8 @@ position was used', '']
                         f"{'was' if k == 1 else 'were'} used")
     return notes
 
+MANY = 64  # from this many records on, words are built once per distinct vote
+
 
 def vote_counts(codes: np.ndarray, neighbour_pos: np.ndarray, n_classes: int) -> np.ndarray:
     """Count neighbour labels per row: an ``(n, n_classes)`` integer matrix."""
@@ -175,11 +177,21 @@ def add_vote_records(out: SelectionBuilder, positions: np.ndarray, rows: np.ndar
     >>> out.selection().detail
     ["2 of its 2 nearest neighbours are labelled 'ok', none 'worn' (its own label)"]
     """
+    positions, rows = np.asarray(positions, dtype=np.int64), np.asarray(rows, dtype=np.int64)
     notes = ([""] * len(positions) if space is None else
-             tie_notes(space, np.asarray(positions), dist[np.asarray(rows, dtype=np.int64)],
-                       reference))
-    for pos, row, note in zip(positions, rows, notes, strict=True):
-        counts = np.bincount(codes[nbr[row]], minlength=len(names))
-        out.add(int(pos), "knn-disagrees",
-                describe_votes(counts, names, int(codes[pos])) + note + suffix,
-                neighbours=nbr[row], distances=dist[row], step=step)
+             tie_notes(space, positions, dist[rows], reference))
+    if len(positions) < MANY:
+        for pos, row, note in zip(positions, rows, notes, strict=True):
+            counts = np.bincount(codes[nbr[row]], minlength=len(names))
+            out.add(int(pos), "knn-disagrees",
+                    describe_votes(counts, names, int(codes[pos])) + note + suffix,
+                    neighbours=nbr[row], distances=dist[row], step=step)
+        return
+    # Many rows share a vote (counts and own label): word each distinct vote once.
+    lines = nbr[rows]
+    votes = np.column_stack([vote_counts(codes, lines, len(names)), codes[positions]])
+    distinct, which = np.unique(votes, axis=0, return_inverse=True)
+    words = [describe_votes(v[:-1], names, int(v[-1])) for v in distinct]
+    out.add_many(positions, "knn-disagrees",
+                 [words[w] + note + suffix for w, note in zip(which.reshape(-1), notes, strict=True)],
+                 neighbours=lines, distances=dist[rows], step=step)

@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from curate.settings import Param
+from curate.space.labels import encode_labels
 
 __all__ = ["MethodInfo", "Selection", "SelectionBuilder", "encode"]
 
@@ -31,7 +32,10 @@ class MethodInfo:
     stratified partition, then over their union, instead of sending its
     neighbour queries to the workers). ``catches`` names the kinds of fault
     (:data:`curate.settings.FAULT_KINDS`) the method is meant to find, against
-    which `curate evaluate --truth` scores its recall.
+    which `curate evaluate --truth` scores its recall. ``judged_by_lists``: its result is a
+    function of every row's k nearest rows of the stage, found in one
+    whole-stage search: a run keeps those lists, and an update brings them up
+    to date and runs the method again on them.
     """
 
     key: str
@@ -77,6 +81,7 @@ class MethodInfo:
         if keep:
             return "any share of a class, but every class keeps at least one row"
         return f"at most {share:.0%} of each class (max_removed_share = {share:g})"
+    judged_by_lists: bool = False
 
     def defaults(self) -> dict[str, Any]:
         """Return the default of every parameter."""
@@ -95,6 +100,11 @@ class Selection:
     parallel to ``removed``. ``kept_as`` is -1 where no kept row stands for the
     removed one; ``step`` is 1 for methods that do not iterate. ``info`` carries
     method-level facts for the summary (JSON-serialisable).
+
+    Label-noise methods may flag rows without removing them: ``action`` is
+    ``"relabel"`` or ``"report"`` and ``flagged`` holds their records (a
+    Selection in which they are the removed rows). ``suggested`` has one
+    entry per row, the label a method suggests for it, None elsewhere.
     """
 
     kept: np.ndarray
@@ -108,6 +118,9 @@ class Selection:
     info: dict[str, Any] = field(default_factory=dict)
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     groups: list[np.ndarray] = field(default_factory=list)
+    flagged: Selection | None = None
+    suggested: np.ndarray | None = None
+    action: str = "remove"
 
     @property
     def n(self) -> int:
@@ -154,6 +167,26 @@ class SelectionBuilder:
         self._kept_as.append(int(kept_as))
         self._step.append(int(step))
 
+    def add_many(self, positions: np.ndarray, reason: str, details: Sequence[str], *,
+                 neighbours: np.ndarray, distances: np.ndarray, step: int = 1) -> None:
+        """Record that ``positions`` leave, one row of ``neighbours``/``distances`` each.
+
+        Examples
+        --------
+        >>> r = SelectionBuilder(3)
+        >>> r.add_many(np.array([0, 2]), "why", ["a", "b"], neighbours=np.array([[1], [1]]),
+        ...            distances=np.array([[0.5], [0.7]]))
+        >>> r.selection().removed.tolist()
+        [0, 2]
+        """
+        self._pos.extend(np.asarray(positions, dtype=np.int64).tolist())
+        self._reason.extend([reason] * len(positions))
+        self._detail.extend(details)
+        self._nbr.extend(np.asarray(neighbours, dtype=np.int64))
+        self._dist.extend(np.asarray(distances, dtype=np.float64))
+        self._kept_as.extend([-1] * len(positions))
+        self._step.extend([int(step)] * len(positions))
+
     def selection(self, info: dict[str, Any] | None = None,
                   groups: list[np.ndarray] | None = None) -> Selection:
         """Build the Selection; raise if a position was removed twice."""
@@ -185,5 +218,4 @@ def encode(labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     >>> names.tolist(), y.tolist()
     (['a', 'b'], [1, 0, 1])
     """
-    names, codes = np.unique(labels, return_inverse=True)
-    return names, codes.astype(np.int64).reshape(-1)
+    return encode_labels(labels)

@@ -26,6 +26,7 @@ TOMEK_LINKS = MethodInfo(
     purpose="clean class borders: remove pairs of rows from different classes that are "
             "each other's nearest neighbour",
     compares_classes=True, catches=("label-flip",),
+    judged_by_lists=True,
     func=tomek_links,
     params=(Param("remove", str, "both", "both: every member of a link that the stage may "
                   "remove; larger: only the member from the larger class",
@@ -126,6 +127,7 @@ NCR = MethodInfo(
     purpose="sharpen a small class of interest: remove other-class rows that ENN outvotes "
             "or that crowd its misclassified rows",
     compares_classes=True, catches=("label-flip",),
+    judged_by_lists=True,
     func=ncr,
     params=(
         Param("k", int, 3, "neighbours that vote and that are cleaned", low=1),

@@ -47,7 +47,7 @@ def exact_duplicates(space: Space, labels: np.ndarray, *, removable: np.ndarray,
     >>> sel.removed.tolist(), sel.kept_as.tolist()
     ([2], [0])
     """
-    _, label_codes = np.unique(labels, return_inverse=True)
+    _, label_codes = encode(labels)
     ident = space.identity_codes()
     key = ident * (int(label_codes.max(initial=0)) + 1) + label_codes.reshape(-1)
     out = SelectionBuilder(space.n)

@@ -53,6 +53,7 @@ ENN = MethodInfo(
     reference="Wilson 1972",
     purpose="remove likely mislabels: rows their k nearest neighbours vote against",
     compares_classes=True, catches=("label-flip",),
+    judged_by_lists=True,
     func=enn,
     params=(_K, _VOTE),
     reasons=_OUTVOTED,
@@ -185,6 +186,7 @@ ALL_KNN = MethodInfo(
     purpose="remove likely mislabels that the vote of any neighbourhood size up to k "
             "gets wrong",
     compares_classes=True, catches=("label-flip",),
+    judged_by_lists=True,
     func=all_knn,
     params=(Param("k", int, 3, "the largest number of neighbours that vote", low=1), _VOTE),
     reasons=_OUTVOTED,

@@ -75,6 +75,7 @@ HARDNESS = MethodInfo(
     reference="Smith, Martinez and Giraud-Carrier 2014",
     purpose="score each row by the share of its k nearest neighbours with another label; "
             "optionally remove rows at or above a threshold",
+    judged_by_lists=True,
     func=hardness, catches=("label-flip",),
     params=(
         Param("k", int, 5, "neighbours that are compared with the row's label", low=1),

@@ -23,6 +23,7 @@ from curate.neighbours._plan import Request, make_request
 from curate.neighbours.backends import TABLE, choose_backend, plan
 from curate.neighbours.calls import EngineCall, note
 from curate.neighbours.executor import current_executor
+from curate.neighbours.lists import keep_lists, served_lists, wanted_length
 
 if TYPE_CHECKING:
     from curate.space.points import Space
@@ -97,7 +98,21 @@ def kneighbors(space: Space, k: int, *, queries: np.ndarray | None = None,
     >>> d, i = kneighbors(s, 2)
     >>> i.tolist()
     [[1, 2], [0, 2], [3, 1], [2, 1]]
+
+    Inside :func:`curate.neighbours.lists.sharing_lists` a whole-table
+    self-search of that space is answered from, or kept in, the shared lists.
     """
+    served = served_lists(space.matrix, k, queries, reference, exclude_self)
+    if served is not None:
+        return served
+    wide = wanted_length(space.matrix, k, queries, reference, exclude_self)
+    dist, pos = _kneighbors(space, wide, queries, reference, exclude_self)
+    keep_lists(space.matrix, queries, reference, exclude_self, dist, pos)
+    return dist[:, :k], pos[:, :k]
+
+
+def _kneighbors(space: Space, k: int, queries: np.ndarray | None, reference: np.ndarray | None,
+                exclude_self: bool) -> tuple[np.ndarray, np.ndarray]:
     req = make_request(space.matrix, space.metric, queries, reference, exclude_self)
     check_k(k, req, exclude_self)
     if len(req.queries) == 0:

@@ -17,7 +17,7 @@ import polars as pl
 __all__ = ["AUDIT_COLUMNS", "AuditLog", "audit_schema"]
 
 AUDIT_COLUMNS = ("row_id", "stage", "method", "reason", "detail", "label", "neighbour_ids",
-                 "neighbour_labels", "neighbour_distances", "kept_as", "step")
+                 "neighbour_labels", "neighbour_distances", "kept_as", "step", "suggested_label")
 
 
 def audit_schema(unique_ids: bool = True) -> pa.DataFrameSchema:
@@ -39,6 +39,7 @@ def audit_schema(unique_ids: bool = True) -> pa.DataFrameSchema:
             "neighbour_distances": pa.Column(pl.List(pl.Float64), nullable=False),
             "kept_as": pa.Column(None, nullable=True),
             "step": pa.Column(pl.Int64, nullable=False, checks=pa.Check.ge(0)),
+            "suggested_label": pa.Column(None, nullable=True),
         },
         strict=True,
         ordered=True,
@@ -60,8 +61,10 @@ class AuditLog:
 
     def add(self, *, stage: str, method: str, positions: np.ndarray, reason: Sequence[str],
             detail: Sequence[str], neighbours: Sequence[np.ndarray],
-            distances: Sequence[np.ndarray], kept_as: np.ndarray, step: np.ndarray) -> None:
-        """Append the records of one stage (positions are input positions; -1 in kept_as = none)."""
+            distances: Sequence[np.ndarray], kept_as: np.ndarray, step: np.ndarray,
+            suggested: Sequence[object] | None = None) -> None:
+        """Append the records of one stage (positions are input positions; -1 in kept_as = none;
+        ``suggested``: the label a label-noise method suggests for each row, None where none)."""
         if len(positions) == 0:
             return
         lengths = np.array([len(n) for n in neighbours], dtype=np.int64)
@@ -83,7 +86,14 @@ class AuditLog:
             "neighbour_distances": _nest(pl.Series(flat_dist, dtype=pl.Float64), lengths),
             "kept_as": kept_ids,
             "step": pl.Series(np.asarray(step, dtype=np.int64), dtype=pl.Int64),
+            "suggested_label": self._labels_like(suggested, len(positions)),
         }))
+
+    def _labels_like(self, values: Sequence[object] | None, n: int) -> pl.Series:
+        """Suggested labels in the label column's own type (null where none)."""
+        if values is None:
+            return pl.Series([None] * n, dtype=self.labels.dtype)
+        return pl.Series(list(values), dtype=self.labels.dtype, strict=False)
 
     def frame(self, unique_ids: bool = True) -> pl.DataFrame:
         """The audit table, checked against :func:`audit_schema`."""
@@ -96,7 +106,8 @@ class AuditLog:
                 "neighbour_ids": pl.Series([], dtype=pl.List(self.ids.dtype)),
                 "neighbour_labels": pl.Series([], dtype=pl.List(self.labels.dtype)),
                 "neighbour_distances": pl.Series([], dtype=pl.List(pl.Float64)),
-                "kept_as": self.ids.clear(), "step": pl.Series([], dtype=pl.Int64)},
+                "kept_as": self.ids.clear(), "step": pl.Series([], dtype=pl.Int64),
+                "suggested_label": self.labels.clear()},
                 schema_overrides={"stage": pl.String, "method": pl.String, "reason": pl.String,
                                   "detail": pl.String})
         return audit_schema(unique_ids).validate(table)

@@ -16,18 +16,19 @@ import numpy as np
 import polars as pl
 
 from curate.cluster.session import cluster_session
-from curate.errors import counted
+from curate.errors import UsageError, counted
 from curate.methods import method_for
 from curate.methods.base import Selection
 from curate.neighbours.backends import choose_backend
+from curate.neighbours.lists import sharing_lists
 from curate.pipeline.audit import AuditLog
-from curate.pipeline.records import Prepared, RunResult, StageOutcome
-from curate.pipeline.stage import check_k, removable_rows, run_stage, run_step
-from curate.pipeline.summary import build_summary
+from curate.pipeline.records import SUGGESTED, Prepared, RunResult, StageOutcome
+from curate.pipeline.stage import check_folds, check_k, removable_rows, run_stage, run_step
+from curate.pipeline.summary import build_summary, doubt_summary
 from curate.settings import StageSettings
 from curate.space.points import Space
 
-__all__ = ["check_stages", "execute"]
+__all__ = ["SUGGESTED", "check_stages", "execute"]
 
 
 def check_stages(prep: Prepared) -> None:
@@ -37,6 +38,7 @@ def check_stages(prep: Prepared) -> None:
         removable = removable_rows(stage, prep.space_labels, prep.protected, task)
         if method_for(stage.method, task).uses_neighbours:
             check_k(stage, prep.space_labels, removable, task)
+        check_folds(stage, prep.space_labels, task)
 
 
 def _quarantine(prep: Prepared, audit: AuditLog) -> None:
@@ -56,10 +58,12 @@ def _quarantine(prep: Prepared, audit: AuditLog) -> None:
 
 
 def _record(prep: Prepared, audit: AuditLog, stage: StageSettings, active: np.ndarray,
-            sel: Selection, only: np.ndarray | None = None) -> np.ndarray:
+            sel: Selection, only: np.ndarray | None = None,
+            suggested: np.ndarray | None = None) -> np.ndarray:
     """Map a selection to input positions and append its audit records; return removed positions.
 
-    ``only`` limits the records to those local positions (for rows a stage was kept from removing).
+    ``only`` limits the records to those local positions (for rows a stage was kept from removing);
+    ``suggested`` holds a label per local position that a label-noise method suggests.
     """
     to_input = prep.valid_positions[active]
     pick = np.arange(len(sel.removed)) if only is None else np.flatnonzero(np.isin(sel.removed, only))
@@ -69,8 +73,21 @@ def _record(prep: Prepared, audit: AuditLog, stage: StageSettings, active: np.nd
               neighbours=[to_input[sel.neighbours[i]] for i in pick],
               distances=[sel.distances[i] for i in pick],
               kept_as=np.where(sel.kept_as[pick] >= 0, to_input[np.maximum(sel.kept_as[pick], 0)], -1),
-              step=sel.step[pick])
+              step=sel.step[pick],
+              suggested=None if suggested is None else suggested[sel.removed[pick]])
     return removed
+
+
+def _record_flags(prep: Prepared, flags: AuditLog, actions: list[str], relabel: np.ndarray,
+                  stage: StageSettings, active: np.ndarray, sel: Selection) -> None:
+    """Record the rows a label-noise stage flagged but kept, and its suggested labels for the
+    kept rows when it relabels (the input's label column itself is never changed)."""
+    if sel.flagged is None or sel.suggested is None:
+        return
+    flagged = _record(prep, flags, stage, active, sel.flagged, suggested=sel.suggested)
+    actions.extend([sel.action] * len(flagged))
+    if sel.action == "relabel":
+        relabel[flagged] = sel.suggested[sel.flagged.removed]
 
 
 def _spared(prep: Prepared, spared: AuditLog, stage: StageSettings, active: np.ndarray,
@@ -100,6 +117,10 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     labels = prep.space_labels
     audit = AuditLog(prep.ids, prep.labels)
     spared = AuditLog(prep.ids, prep.labels)
+    flags = AuditLog(prep.ids, prep.labels)
+    actions: list[str] = []
+    relabel = np.full(prep.frame.height, None, dtype=object)
+    _check_relabel_column(prep)
     _quarantine(prep, audit)
     active = np.arange(prep.space.n)
     ids_valid = prep.ids.gather(prep.valid_positions).to_list()
@@ -112,28 +133,55 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
         sub = prep.space.subset(active)
         stage_labels = labels[active]
         protected = np.flatnonzero(np.isin(active, prep.protected))
-        step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
-                        [ids_valid[a] for a in active], prep.task.task)
-        if step.over_limit is not None:
-            raise step.over_limit
-        sel = step.selection
-        removed_input = _record(prep, audit, stage, active, sel)
-        sel.info["protected_spared"] = _spared(prep, spared, stage, active, sub, stage_labels,
-                                               protected)
+        # one neighbour more than the vote: the tie notes of its records need no search
+        info = method_for(stage.method, prep.task.task)
+        wider = info.judged_by_lists and sub.engine.backend != "approximate"
+        with sharing_lists(sub.matrix, widen=1 if wider else 0) as lists:
+            step = run_step(stage, sub, stage_labels, protected, prep.spec.run.seed,
+                            [ids_valid[a] for a in active], prep.task.task)
+            if step.over_limit is not None:
+                raise step.over_limit
+            sel = step.selection
+            # the lists the stage searched serve its run without protection too
+            spared_count = _spared(prep, spared, stage, active, sub, stage_labels, protected)
+        removed_input = _record(prep, audit, stage, active, sel, suggested=sel.suggested)
+        _record_flags(prep, flags, actions, relabel, stage, active, sel)
+        sel.info["protected_spared"] = spared_count
         for name, values in sel.scores.items():
             full = scores.setdefault(name, np.full(prep.frame.height, np.nan))
             full[prep.valid_positions[active]] = values
         outcomes.append(StageOutcome(stage, len(active), stage_labels, sel, removed_input,
-                                     time.perf_counter() - t0))
+                                     time.perf_counter() - t0, prep.valid_positions[active],
+                                     lists.pair() if info.judged_by_lists
+                                     else None))
         active = active[sel.kept]
         say(f"  removed {counted(len(sel.removed), 'row')} in {outcomes[-1].seconds:.2f} s")
     kept_positions = prep.valid_positions[active]
     table = audit.frame()
     _check_outputs(prep, kept_positions, table)
+    flagged = flags.frame(unique_ids=False).with_columns(pl.Series("action", actions,
+                                                                   dtype=pl.String))
     summary = build_summary(prep, outcomes, kept_positions, table, time.perf_counter() - started)
     summary["engine"].update(_engine_facts(prep, outcomes))
+    summary["rows_flagged_kept"] = flagged.height
+    if "doubt" in scores:
+        summary["doubt"] = doubt_summary(scores["doubt"])
     return RunResult(table, summary, prep, kept_positions, scores,
-                     spared.frame(unique_ids=False) if len(prep.protected) else None)
+                     spared.frame(unique_ids=False) if len(prep.protected) else None,
+                     flagged if any(s.params.get("action") in ("relabel", "report")
+                                    for s in prep.spec.stages) else None,
+                     relabel if _relabels(prep) else None, outcomes)
+
+
+def _relabels(prep: Prepared) -> bool:
+    return any(s.params.get("action") == "relabel" for s in prep.spec.stages)
+
+
+def _check_relabel_column(prep: Prepared) -> None:
+    if _relabels(prep) and SUGGESTED in prep.frame.columns:
+        raise UsageError(f"{prep.spec.input.path}: the input already has a column {SUGGESTED!r}, "
+                         "where a stage with action = \"relabel\" writes its suggestions",
+                         hint="rename that input column, or use action = \"report\"")
 
 
 def _engine_facts(prep: Prepared, outcomes: list[StageOutcome]) -> dict[str, Any]:

@@ -25,20 +25,25 @@ from curate.methods._targets import check_targets, quantile_bins
 from curate.pipeline.records import Prepared
 from curate.settings import Spec, check_params
 from curate.space.build import build_space
+from curate.space.labels import encode_labels
 
 SPACE_BINS = 10  # quantile bins of a numeric target that HVDM and learned weights read as classes
 
-__all__ = ["prepare"]
+__all__ = ["prepare", "prepare_frame"]
 
 
 def _labels_of_valid(frame: pl.DataFrame, label: str) -> np.ndarray:
     values = frame[label]
+    if values.dtype in (pl.Categorical, pl.String) and values.null_count() == 0:
+        # fixed-width text, not Python objects: every later count or comparison of the
+        # labels runs in compiled loops (on a million rows, seconds each as objects)
+        return values.cast(pl.String).to_numpy().astype(str)
     return values.cast(pl.String).to_numpy() if values.dtype == pl.Categorical else values.to_numpy()
 
 
 def _check_classes(spec: Spec, labels: np.ndarray) -> None:
     needs_two = [s for s in spec.stages if method_for(s.method, "classification").compares_classes]
-    distinct = np.unique(labels)
+    distinct = encode_labels(labels)[0]
     if needs_two and len(distinct) < 2:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} has one class "
                          f"only ({quoted(distinct[0])}); stage {needs_two[0].name!r} compares classes",
@@ -91,7 +96,12 @@ def resolve_stages(spec: Spec, task: str) -> Spec:
 
 def prepare(spec: Spec) -> Prepared:
     """Read, identify and validate the input and build its space, without selecting anything."""
-    frame = read_input(spec.input.path)
+    return prepare_frame(spec, read_input(spec.input.path))
+
+
+def prepare_frame(spec: Spec, frame: pl.DataFrame, fit: np.ndarray | None = None) -> Prepared:
+    """Identify and validate ``frame`` and build its space (fitted on the ``fit`` input rows,
+    a boolean mask over ``frame``, when given: an update keeps its run's fitted space)."""
     if spec.input.label not in frame.columns:
         raise InputError(f"{spec.input.path}: label column {spec.input.label!r} is not in the "
                          f"input (columns: {', '.join(frame.columns[:12])})",
@@ -106,19 +116,24 @@ def prepare(spec: Spec) -> Prepared:
     kinds = schema_mod.feature_kinds(checked, features, spec.input.columns)
     refuse_id_like(checked, kinds, spec.input)
     valid_ids = ids.filter(pl.Series(validation.valid)).to_list()
-    task = choose_task(spec, checked[spec.input.label])
+    fit_valid = None if fit is None else fit[validation.valid]
+    target = checked[spec.input.label]
+    # an update keeps its run's task and bins: both are read from the rows the run fitted
+    task = choose_task(spec, target if fit_valid is None else target.filter(pl.Series(fit_valid)))
     spec = resolve_stages(spec, task.task)
     if task.task == "regression":
-        labels = check_targets(checked[spec.input.label], ids=valid_ids,
+        labels = check_targets(target, ids=valid_ids,
                                where=f"{spec.input.path}, column {spec.input.label!r}")
-        classes = quantile_bins(labels, SPACE_BINS)[0].astype(str)
+        edges = quantile_bins(labels if fit_valid is None else labels[fit_valid], SPACE_BINS)[1]
+        classes = np.searchsorted(edges[1:-1], labels, side="left").astype(str)
     else:
         labels = classes = _labels_of_valid(checked, spec.input.label)
         _check_classes(spec, labels)
-    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=classes)
+    space = build_space(checked, kinds, spec.space, valid_ids, spec.run.engine, labels=classes,
+                        fit_rows=fit_valid)
     protected_input = _protected_positions(spec, ids)
     local = np.full(frame.height, -1, dtype=np.int64)
     local[np.flatnonzero(validation.valid)] = np.arange(int(validation.valid.sum()))
     return Prepared(spec, frame, ids, frame[spec.input.label], validation.valid,
                     validation.failures, features, kinds, space, labels,
-                    local[protected_input][local[protected_input] >= 0], checked, task)
+                    local[protected_input][local[protected_input] >= 0], checked, task, fit)

@@ -17,6 +17,8 @@ from curate.space.points import Space
 __all__ = ["Prepared", "RunResult", "StageOutcome"]
 
 
+SUGGESTED = "suggested_label"  # the column a relabelling stage adds to kept.parquet
+
 @dataclass
 class Prepared:
     """The checked input, ready for stages: the table, ids, valid rows and their space.
@@ -38,6 +40,7 @@ class Prepared:
     protected: np.ndarray
     checked: pl.DataFrame
     task: TaskChoice = TaskChoice("classification", "the default")
+    fit: np.ndarray | None = None
 
     @property
     def valid_positions(self) -> np.ndarray:
@@ -54,6 +57,12 @@ class RunResult:
     just writes its folder streams them from the input in batches instead (see
     :func:`curate.io.batches.write_rows`), so that no whole copy of the input
     exists at the end of the run.
+
+    ``spared`` records what stages would have removed of the protected rows;
+    ``flagged`` (when a label-noise stage ran) records the rows such a stage
+    flagged but kept (``action`` relabel or report), with an ``action`` column;
+    ``relabel`` holds, per input position, the label a relabelling stage
+    suggests (None elsewhere), written as the ``suggested_label`` column.
     """
 
     audit: pl.DataFrame
@@ -62,6 +71,9 @@ class RunResult:
     kept_positions: np.ndarray
     scores: dict[str, np.ndarray] = field(default_factory=dict)
     spared: pl.DataFrame | None = None
+    flagged: pl.DataFrame | None = None
+    relabel: np.ndarray | None = None
+    outcomes: list[StageOutcome] = field(default_factory=list)
 
     @property
     def kept_mask(self) -> np.ndarray:
@@ -77,6 +89,9 @@ class RunResult:
         if prep.spec.output.scores:
             base = base.with_columns([pl.Series(name, values) for name, values
                                       in self.scores.items() if name not in base.columns])
+        if self.relabel is not None:
+            base = base.with_columns(pl.Series(SUGGESTED, list(self.relabel),
+                                               dtype=prep.labels.dtype, strict=False))
         return base
 
     @cached_property
@@ -92,7 +107,8 @@ class RunResult:
 
 @dataclass
 class StageOutcome:
-    """One stage's facts for the summary."""
+    """One stage's facts for the summary; ``rows`` are the input positions of the rows that
+    reached it, ``lists`` the whole-stage neighbour lists its method searched, if any."""
 
     stage: StageSettings
     rows_in: int
@@ -100,3 +116,5 @@ class StageOutcome:
     selection: Selection
     removed_input: np.ndarray
     seconds: float
+    rows: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    lists: tuple[np.ndarray, np.ndarray] | None = None

@@ -26,35 +26,40 @@ from curate.methods.base import Selection
 from curate.neighbours.calls import recording, summarise_calls
 from curate.neighbours.search import require_neighbours
 from curate.settings import StageSettings
+from curate.space.labels import class_sizes, encode_labels
 from curate.space.points import Space
 
-__all__ = ["Step", "check_k", "looks_continuous", "removable_rows", "run_stage", "run_step",
-           "safety_breach", "verify_partition"]
+__all__ = ["Step", "check_folds", "check_k", "looks_continuous", "removable_rows", "run_stage",
+           "run_step", "safety_breach", "verify_partition"]
 
 
 def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray,
                    task: str = "classification") -> np.ndarray:
-    """Rows the stage may remove: of the classes it names, and not protected."""
+    """Rows the stage may remove: of the classes it names (compared as text), not protected."""
     if task == "regression" and stage.classes != "all":
         raise UsageError(f"stage {stage.name!r}: classes = {stage.classes!r} picks classes, but "
                          "this table's target is a number (regression)",
                          hint="remove classes from the stage (every row may go), or protect "
                               "rows with [input] protect")
-    text = labels.astype(str)
     if stage.classes == "all":
         mask = np.ones(len(labels), dtype=bool)
-    elif stage.classes == "all-but-smallest":
-        values, counts = np.unique(text, return_counts=True)
-        smallest = values[np.lexsort((values, counts))[0]] if len(values) > 1 else None
-        mask = text != smallest
     else:
-        wanted = [str(c) for c in stage.classes]
-        unknown = sorted(set(wanted) - set(text))
-        if unknown:
-            raise UsageError(f"stage {stage.name!r}: classes {', '.join(map(quoted, unknown))} "
-                             "do not occur in its input",
-                             hint=f"use labels that occur: {', '.join(sorted(set(text))[:10])}")
-        mask = np.isin(text, wanted)
+        names, codes = encode_labels(labels)
+        text = np.asarray(names).astype(str)
+        if stage.classes == "all-but-smallest":
+            values, counts = class_sizes(labels)
+            smallest = values[np.lexsort((values, counts))[0]] if len(values) > 1 else None
+            chosen = text != smallest
+        else:
+            wanted = [str(c) for c in stage.classes]
+            unknown = sorted(set(wanted) - set(text.tolist()))
+            if unknown:
+                raise UsageError(f"stage {stage.name!r}: classes {', '.join(map(quoted, unknown))} "
+                                 "do not occur in its input",
+                                 hint="use labels that occur: "
+                                      f"{', '.join(sorted(set(text.tolist()))[:10])}")
+            chosen = np.isin(text, wanted)
+        mask = chosen[codes]
     mask[protected] = False
     return mask
 
@@ -83,6 +88,30 @@ def looks_continuous(labels: np.ndarray) -> bool:
     return bool(np.any(distinct != np.round(distinct)) or len(distinct) * 4 > len(labels))
 
 
+def check_folds(stage: StageSettings, labels: np.ndarray, task: str = "classification") -> None:
+    """Stop before a cross-validating stage runs when a class (on a regression table: the
+    stage's input) has fewer rows than ``folds``."""
+    folds = stage.params.get("folds")
+    if not isinstance(folds, int) or isinstance(folds, bool) or len(labels) == 0:
+        return
+    if task == "regression":
+        if len(labels) < folds:
+            raise UsageError(f"stage {stage.name!r}: folds = {folds}, but its input has only "
+                             f"{counted(len(labels), 'row')}",
+                             hint=f"lower folds to {len(labels)}" if len(labels) >= 2 else
+                             "a stage cannot cross-validate fewer than two rows")
+        return
+    values, counts = np.unique(labels.astype(str), return_counts=True)
+    if len(values) > 1 and counts.min() < folds:
+        small = values[np.argmin(counts)]
+        raise UsageError(f"stage {stage.name!r}: folds = {folds}, but class {str(small)!r} has "
+                         f"only {counts.min()} rows in its input; each fold needs a row of "
+                         "every class",
+                         hint=f"lower folds to {counts.min()}" if counts.min() >= 2 else
+                         "a class of one row cannot be cross-validated: fix or drop that row "
+                         "first")
+
+
 def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray,
             task: str = "classification") -> None:
     """Stop before the stage runs when its ``k`` does not fit the rows (and classes) it gets."""
@@ -92,8 +121,8 @@ def check_k(stage: StageSettings, labels: np.ndarray, removable: np.ndarray,
     require_neighbours(k, len(labels), where=f"stage {stage.name!r}: ")
     if task == "regression":
         return
-    values = np.unique(labels[removable].astype(str))
-    sizes = dict(zip(*np.unique(labels.astype(str), return_counts=True), strict=True))
+    values, _ = class_sizes(labels[removable])
+    sizes = dict(zip(*class_sizes(labels), strict=True))
     small = [str(v) for v in values if sizes[v] <= k]
     if not small or not method_for(stage.method, task).compares_classes:
         return
@@ -137,12 +166,12 @@ def _limit_hint(stage: StageSettings) -> str:
 
 
 def _rows_breach(stage: StageSettings, total: int, removed_local: np.ndarray,
-                 ids: list[Any]) -> SafetyLimitError | None:
+                 ids: list[Any], verb: str = "remove") -> SafetyLimitError | None:
     share = len(removed_local) / total
     if share <= stage.max_removed_share:
         return None
     return SafetyLimitError(
-        f"stage {stage.name!r} ({stage.method}) would remove {len(removed_local)} of {total} "
+        f"stage {stage.name!r} ({stage.method}) would {verb} {len(removed_local)} of {total} "
         f"rows ({share:.0%}), over its limit max_removed_share = {stage.max_removed_share}; "
         f"{first_ids([ids[i] for i in removed_local])}",
         hint="review why (a larger alpha or threshold removes less), or raise "
@@ -151,8 +180,10 @@ def _rows_breach(stage: StageSettings, total: int, removed_local: np.ndarray,
 
 
 def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.ndarray,
-                  ids: list[Any], task: str = "classification") -> SafetyLimitError | None:
-    """The error a run stops with when the stage removes too much of a class, else None.
+                  ids: list[Any], task: str = "classification",
+                  verb: str = "remove") -> SafetyLimitError | None:
+    """The error a run stops with when the stage removes (or relabels) too much of a class,
+    else None.
 
     On a regression table the limit bounds the share of all the stage's rows, and
     ``keep_every_class`` does not apply (there are no classes).
@@ -161,11 +192,10 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
     off = stage.max_removed_share >= 1.0 and (regression or not stage.keep_every_class)
     if off or len(removed_local) == 0:
         return None
-    if task == "regression":
-        return _rows_breach(stage, len(labels), removed_local, ids)
-    values, entering = np.unique(labels.astype(str), return_counts=True)
-    leaving = dict(zip(*np.unique(labels[removed_local].astype(str), return_counts=True),
-                       strict=True))
+    if regression:
+        return _rows_breach(stage, len(labels), removed_local, ids, verb)
+    values, entering = class_sizes(labels)
+    leaving = dict(zip(*class_sizes(labels[removed_local]), strict=True))
     for value, total in zip(values.tolist(), entering.tolist(), strict=True):
         gone = int(leaving.get(value, 0))
         vanished = stage.keep_every_class and gone == total
@@ -179,7 +209,7 @@ def safety_breach(stage: StageSettings, labels: np.ndarray, removed_local: np.nd
             limit = (f"({gone / total:.0%}), over its limit max_removed_share = "
                      f"{stage.max_removed_share:g}")
         return SafetyLimitError(
-            f"stage {stage.name!r} ({stage.method}) would remove {gone} of "
+            f"stage {stage.name!r} ({stage.method}) would {verb} {gone} of "
             f"{counted(total, 'row')} of class {quoted(value)} {limit}; {first_ids(rows)}",
             hint=_limit_hint(stage))
     return None
@@ -192,6 +222,7 @@ def run_stage(stage: StageSettings, space: Space, labels: np.ndarray, protected:
     removable = removable_rows(stage, labels, protected, task)
     if info.uses_neighbours:
         check_k(stage, labels, removable, task)
+    check_folds(stage, labels, task)
     stage_seed = stage.seed if stage.seed is not None else seed
     if space.engine.cluster_address is not None:
         return run_on_cluster(info, space, labels, removable=removable, seed=stage_seed,
@@ -234,4 +265,7 @@ def run_step(stage: StageSettings, space: Space, labels: np.ndarray, protected: 
     if calls:
         sel.info["engine"] = summarise_calls(calls)
     verify_partition(sel, space.n, stage)
+    if sel.action == "relabel" and sel.flagged is not None:
+        # Relabelling half a class is as suspect as removing it: the same limit holds.
+        return Step(sel, safety_breach(stage, labels, sel.flagged.removed, ids, task, "relabel"))
     return Step(sel, safety_breach(stage, labels, sel.removed, ids, task))

@@ -20,11 +20,14 @@ import polars as pl
 
 from curate.io.read import file_sha256
 from curate.methods._targets import describe_target
+from curate.space.labels import class_sizes
 
 if TYPE_CHECKING:
     from curate.pipeline.records import Prepared, StageOutcome
 
-__all__ = ["build_summary", "versions"]
+__all__ = ["build_summary", "doubt_summary", "versions"]
+
+DOUBT_LEVELS = (0.5, 0.75, 0.9)  # bands of the doubt score the summary and the report count
 
 _PACKAGES = ("curate", "polars", "numpy", "scipy", "scikit-learn", "imbalanced-learn", "pandera")
 
@@ -52,7 +55,7 @@ def versions() -> dict[str, str]:
 
 
 def _counts(values: np.ndarray) -> dict[str, int]:
-    names, counts = np.unique(np.asarray(values).astype(str), return_counts=True)
+    names, counts = class_sizes(np.asarray(values))
     return {str(n): int(c) for n, c in zip(names, counts, strict=True)}
 
 
@@ -90,11 +93,33 @@ def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
     }
     if regression:
         record["target_removed"] = describe_target(out.labels_in[sel.removed])
+    if sel.flagged is not None:
+        record["flagged_kept"] = len(sel.flagged.removed)
+        record["flagged_by_reason"] = dict(sorted(Counter(sel.flagged.reason).items()))
+        record["by_class_flagged"] = {} if regression else _counts(out.labels_in[sel.flagged.removed])
     if sel.groups:
         to_input = prep.valid_positions
         record["groups"] = [ids.gather(to_input[g]).to_list() for g in sel.groups[:1000]]
         record["groups_listed"] = min(len(sel.groups), 1000)
     return record
+
+
+def doubt_summary(values: np.ndarray) -> dict[str, Any]:
+    """How the doubt score is spread over the rows a label-noise stage scored.
+
+    Examples
+    --------
+    >>> d = doubt_summary(np.array([0.1, 0.6, 0.95, np.nan]))
+    >>> d["rows_scored"], d["at_least"], round(d["mean"], 3)
+    (3, {'0.5': 2, '0.75': 1, '0.9': 1}, 0.55)
+    """
+    scored = values[np.isfinite(values)]
+    quantiles = (np.quantile(scored, (0.5, 0.9, 0.99)).tolist() if len(scored)
+                 else [None, None, None])
+    return {"rows_scored": int(len(scored)),
+            "mean": float(scored.mean()) if len(scored) else None,
+            "median": quantiles[0], "q90": quantiles[1], "q99": quantiles[2],
+            "at_least": {f"{level:g}": int(np.sum(scored >= level)) for level in DOUBT_LEVELS}}
 
 
 def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept_positions: np.ndarray,

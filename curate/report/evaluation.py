@@ -161,7 +161,10 @@ def evaluation_html(e: Mapping[str, Any]) -> str:
         plot = image(score_plot(e["results"], lay.score, label, e[key], baseline_label), alt)
     warnings = "".join(f"<p><strong>Warning: {html.escape(w)}.</strong></p>"
                        for w in [*e.get("warnings", []), *over_limit_notes(e)])
-    return (intro + warnings + facts + table(["model", "k", "curated", *lay.head], rows, wide=True)
+    from curate.report.ranking import ranking_html
+
+    return (intro + ranking_html(e) + warnings + facts
+            + table(["model", "k", "curated", *lay.head], rows, wide=True)
             + best_text + plot + "\n".join(p for p in (_injected(e), _known_faults(e)) if p))
 
 

@@ -23,7 +23,7 @@ from curate.report.regression import residual_section, target_section
 if TYPE_CHECKING:
     from curate.pipeline.records import RunResult
 
-__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "over_limit_notes", "render_run", "table"]
+__all__ = ["CAUTIONS", "MAX_POINTS", "cell", "image", "over_limit_notes", "render_run", "table"]
 
 CAUTIONS = (
     "Removing rows can strip genuine rare cases and minority groups: editing treats the unusual "
@@ -200,6 +200,8 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
     (True, True)
     """
     s = result.summary
+    from curate.report.doubt import doubt_section
+
     parts = [section("headline", "Headline", _headline(s)),
              section("flow", "Stage by stage", _flow(s))]
     if s.get("task", {}).get("task") == "regression":
@@ -207,6 +209,9 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
                   section("residuals", "Targets against their neighbours", residual_section(result))]
     else:
         parts.append(section("classes", "Class balance", _classes(s)))
+    doubt = doubt_section(result)
+    if doubt:
+        parts.append(section("doubt", "Doubt about labels", doubt))
     parts += [section("projection", "Where the removed rows lie", _projection(result)),
               section("distances", "Nearest-neighbour distances", _distances(result))]
     if evaluation is not None:

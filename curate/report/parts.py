@@ -22,11 +22,17 @@ MAX_QUERIES = 2000
 
 
 def reasons_of_valid(result: RunResult, pick: np.ndarray) -> np.ndarray:
-    """Removal reason of the rows ``pick`` of the space (valid rows), empty text for kept rows."""
+    """Removal reason of the rows ``pick`` of the space (valid rows), empty text for kept rows;
+    ``flagged, kept: <reason>`` for kept rows a label-noise stage flagged."""
     prep = result.prepared
     ids = prep.ids.gather(prep.valid_positions[pick])
-    frame = pl.DataFrame({"row_id": ids}).join(result.audit.select("row_id", "reason"),
-                                               on="row_id", how="left", maintain_order="left")
+    marks = result.audit.select("row_id", "reason")
+    if result.flagged is not None and result.flagged.height:
+        flagged = result.flagged.unique("row_id", keep="last", maintain_order=True).select(
+            "row_id", ("flagged, kept: " + pl.col("reason")).alias("reason"))
+        marks = pl.concat([marks, flagged.filter(~pl.col("row_id").is_in(marks["row_id"].implode()))])
+    frame = pl.DataFrame({"row_id": ids}).join(marks, on="row_id", how="left",
+                                               maintain_order="left")
     return frame["reason"].fill_null("").to_numpy().astype(str)
 
 

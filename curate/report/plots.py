@@ -18,7 +18,7 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-__all__ = ["class_balance_plot", "distance_plot", "flow_plot", "projection_plot",
+__all__ = ["class_balance_plot", "distance_plot", "doubt_plot", "flow_plot", "projection_plot",
            "score_plot"]
 
 _KEPT = "#9aa5b1"
@@ -120,6 +120,10 @@ def projection_plot(xy: np.ndarray, reasons: np.ndarray, explained: Sequence[flo
     colour = {r: _REMOVED[i % len(_REMOVED)] for i, r in enumerate(names)}
     for reason in names:
         at = reasons == reason
+        if reason.startswith("flagged"):  # kept rows a label-noise stage flagged: crosses
+            ax.scatter(xy[at, 0], xy[at, 1], s=14, c=colour[reason], marker="x", linewidths=0.8,
+                       label=f"{reason} ({int(at.sum()):,})", zorder=4)
+            continue
         ax.scatter(xy[at, 0], xy[at, 1], s=9, facecolors="none", edgecolors=colour[reason],
                    linewidths=0.6, alpha=0.6, label=f"removed: {reason} ({int(at.sum()):,})",
                    zorder=3)
@@ -131,6 +135,28 @@ def projection_plot(xy: np.ndarray, reasons: np.ndarray, explained: Sequence[flo
     for handle in legend.legend_handles:
         if handle is not None:
             handle.set_alpha(1.0)
+    return _uri(fig)
+
+
+def doubt_plot(groups: Mapping[str, np.ndarray]) -> str:
+    """Stacked histogram of the doubt score on [0, 1], one colour per group of rows.
+
+    Examples
+    --------
+    >>> doubt_plot({"kept": np.array([0.1, 0.2]), "removed": np.array([0.9])})[:5]
+    'data:'
+    """
+    fig = _figure(7.0, 3.0)
+    ax = fig.add_subplot()
+    names = [name for name, values in groups.items() if len(values)]
+    colours = [_KEPT if name == "kept" else _COLOURS[i % len(_COLOURS)]
+               for i, name in enumerate(names)]
+    if names:
+        ax.hist([groups[n] for n in names], bins=np.linspace(0, 1, 41).tolist(), stacked=True,
+                color=colours, label=names)
+        ax.legend(frameon=False)
+    ax.set_xlabel("doubt (1 - out-of-fold probability of the row's own label)")
+    ax.set_ylabel("rows")
     return _uri(fig)
 
 

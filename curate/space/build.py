@@ -46,6 +46,7 @@ from curate.space.columns import (
     mutual_information_weights,
     prepare_column,
 )
+from curate.space.labels import encode_labels
 from curate.space.points import Space
 
 __all__ = ["SpaceModel", "WEIGHT_SEED", "build_space", "fit_space", "identity_codes"]
@@ -146,7 +147,7 @@ def _class_codes(labels: np.ndarray | None, n: int,
         raise ValueError(f"{len(labels)} labels for {n} rows")
     values = np.asarray(labels)
     # Labels outside the fit rows are never read: they may be anything, even absent (None).
-    class_names, codes = np.unique(values if fit is None else values[fit], return_inverse=True)
+    class_names, codes = encode_labels(values if fit is None else values[fit])
     classes = np.full(n, -1, dtype=np.int64)
     classes[slice(None) if fit is None else fit] = codes.reshape(-1)
     return classes, class_names

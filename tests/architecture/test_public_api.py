@@ -34,6 +34,19 @@ def test_each_public_name_imports() -> None:
         assert getattr(home, name) is namespace[name]
 
 
+def test_the_entry_points_are_run_update_load_spec_and_the_sampler() -> None:
+    """The documented surface (README, "Python"): an update takes the same keywords as a run,
+    plus the run folder, the new rows and refit."""
+    import inspect
+
+    assert set(curate.__all__) == {"Sampler", "load_spec", "run", "update"}
+    run = inspect.signature(curate.run).parameters
+    update = inspect.signature(curate.update).parameters
+    assert set(run) <= set(update)
+    assert {"run", "new", "refit"} <= {name for name, p in update.items()
+                                       if p.kind is inspect.Parameter.KEYWORD_ONLY}
+
+
 def test_unknown_names_raise_attribute_error() -> None:
     """A name curate does not have is an AttributeError, as for any module."""
     try:

@@ -8,7 +8,9 @@ scikit-learn's checks run on tiny data (classes of 3 to 5 rows). curate
 refuses ``k`` at or above the size of a class a stage may remove (a
 ``UsageError`` naming the class and the fix), so methods with a ``k`` run the
 checks with ``k = 2``. No check is expected to fail: none is skipped or
-marked as an expected failure.
+marked as an expected failure. Likewise methods that cross-validate (label noise)
+need every class to fill each fold, so they run with ``folds = 2`` and a
+committee of a 2-NN vote and a decision tree.
 
 imbalanced-learn checks left out, and why:
 
@@ -55,6 +57,9 @@ def sampler_for_checks(key: str, **settings: Any) -> Sampler:
     params = dict(REQUIRED.get(key, {}))
     if METHODS[key].param("k") is not None:
         params["k"] = 2
+    if METHODS[key].param("folds") is not None:
+        params["folds"] = 2
+        params["models"] = [{"model": "knn", "params": {"k": 2}}, "tree"]
     return Sampler(method=key, params=params or None, **settings)
 
 
