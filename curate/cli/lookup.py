@@ -29,7 +29,7 @@ def cmd_methods(args: argparse.Namespace) -> int:
     else:
         print(methods_text(METHODS))
         print("For regression tables (a numeric target; see [input] task):\n")
-        print(methods_text(REGRESSION_METHODS))
+        print(methods_text(REGRESSION_METHODS, "regression"))
     return 0
 
 

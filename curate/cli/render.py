@@ -122,19 +122,19 @@ def methods_table(methods: Mapping[str, MethodInfo],
              "reference": m.reference,
              "purpose": m.purpose, "reasons": m.reasons,
              "default_max_removed_share": m.default_limit()[0],
-             "default_keep_every_class": m.default_limit()[1], "default_limit": m.limit_text(),
+             "default_keep_every_class": m.default_limit()[1], "default_limit": m.limit_text(task),
              "catches": list(m.catches),
              "params": [{"name": p.name, "default": p.default, "allowed": p.allowed(),
                          "doc": p.doc} for p in m.params]} for m in methods.values()]
 
 
-def methods_text(methods: Mapping[str, MethodInfo]) -> str:
+def methods_text(methods: Mapping[str, MethodInfo], task: str = "classification") -> str:
     """Every method with its parameters, for reading (`curate methods`)."""
     lines: list[str] = []
     for info in methods.values():
         lines.append(f"{info.key:<24} {info.name} ({info.family}; {info.reference})")
         lines.append(f"{'':<24} {info.purpose}")
-        lines.append(f"{'':<24} default safety limit: {info.limit_text()}")
+        lines.append(f"{'':<24} default safety limit: {info.limit_text(task)}")
         if info.catches:
             lines.append(f"{'':<24} meant to catch: {', '.join(info.catches)}")
         for p in info.params:
@@ -256,17 +256,25 @@ def ranking_text(e: Mapping[str, Any]) -> str:
     """
     first = e["ranking"][0]
     by = f"{first['k']}-NN" if first["k"] is not None else str(first["model"])
-    lines = [f"stratified {e['folds']}-fold cross-validation x {e['repeats']} repeat(s), seed "
-             f"{e['seed']}, {e['rows']:,} rows; every variant on the same folds, test folds "
-             f"never curated; ranked by {by} accuracy", "",
-             f"{'':>3} {'variant':<34}{'accuracy':>9}{'bal.acc':>9}{'kept':>7}"
-             f"{'vs none':>9}{'p':>7}{'vs best':>9}{'p':>7}"]
+    regression = "rmse" in first
+    # (header, key, width, digits) of the two scores; RMSE and MAE are in target units
+    cols = ((("RMSE", "rmse", 11, 4), ("MAE", "mae", 11, 4)) if regression else
+            (("accuracy", "accuracy", 9, 3), ("bal.acc", "balanced_accuracy", 9, 3)))
+    width, digits = cols[0][2], cols[0][3]
+    plan = (f"{e['folds']}-fold cross-validation stratified by target quantiles" if regression
+            else f"stratified {e['folds']}-fold cross-validation")
+    lines = [f"{plan} x {e['repeats']} repeat(s), seed {e['seed']}, {e['rows']:,} rows; every "
+             f"variant on the same folds, test folds never curated; ranked by {by} "
+             + ("RMSE (lowest first)" if regression else "accuracy"), "",
+             f"{'':>3} {'variant':<34}" + "".join(f"{h:>{w}}" for h, _, w, _ in cols)
+             + f"{'kept':>7}{'vs none':>{width}}{'p':>7}{'vs best':>{width}}{'p':>7}"]
     for r in e["ranking"]:
-        lines.append(f"{r['rank']:>3} {str(r['variant'])[:33]:<34}{_fixed(r['accuracy'], 9)}"
-                     f"{_fixed(r['balanced_accuracy'], 9)}{_fixed(r['kept_share'], 7, 2)}"
-                     f"{_fixed(r['difference_to_none'], 9, 3, True)}"
+        lines.append(f"{r['rank']:>3} {str(r['variant'])[:33]:<34}"
+                     + "".join(_fixed(r[k], w, d) for _, k, w, d in cols)
+                     + f"{_fixed(r['kept_share'], 7, 2)}"
+                     f"{_fixed(r['difference_to_none'], width, digits, True)}"
                      f"{_fixed(r['p_value_to_none'], 7, 2)}"
-                     f"{_fixed(r['difference_to_best'], 9, 3, True)}"
+                     f"{_fixed(r['difference_to_best'], width, digits, True)}"
                      f"{_fixed(r['p_value_to_best'], 7, 2)}")
     return "\n".join([*lines, "", e["recommendation"]])
 

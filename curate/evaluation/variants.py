@@ -7,7 +7,8 @@ mislabels.method=enn,committee`` evaluates every variant with
 curation (the uncurated records, identical for all variants) and against the
 best variant, with the corrected resampled t-test. The variants are ranked by
 the mean accuracy of one classifier (``--model`` when given, else k-NN with the
-smallest k asked for), and a plain sentence says what that means for the table.
+smallest k asked for), on a regression table by the mean RMSE of one regressor
+(lowest first), and a plain sentence says what that means for the table.
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ import numpy as np
 from curate.errors import UsageError
 from curate.evaluation.crossval import evaluate_prepared
 from curate.evaluation.stats import KNN, corrected_resampled_ttest
-from curate.methods import METHODS
+from curate.methods import METHODS, REGRESSION_METHODS
 from curate.pipeline.records import Prepared
 from curate.spec import spec_from_dict
 
@@ -83,14 +84,15 @@ def _stage_body(prep: Prepared, index: int) -> dict[str, Any]:
     return body
 
 
-def _changed(body: dict[str, Any], key: str, value: Any) -> dict[str, Any]:
+def _changed(body: dict[str, Any], key: str, value: Any, task: str) -> dict[str, Any]:
     if key != "method":
         return body | {key: value}
-    if value not in METHODS:
-        raise UsageError(f"--vary: {value!r} is not a method",
-                         hint=f"use method keys: {', '.join(sorted(METHODS))}")
+    table = REGRESSION_METHODS if task == "regression" else METHODS
+    if value not in table:
+        raise UsageError(f"--vary: {value!r} is not a method for this table's task ({task})",
+                         hint=f"use method keys: {', '.join(sorted(table))}")
     # Parameters the new method does not declare are dropped; its own defaults apply.
-    declared = {p.name for p in METHODS[value].params}
+    declared = {p.name for p in table[value].params}
     return {k: v for k, v in body.items() if k in STAGE_LEVEL or k in declared} | \
         {"method": value}
 
@@ -119,10 +121,10 @@ def vary(prep: Prepared, texts: Sequence[str]) -> list[tuple[str, Prepared]]:
     for combo in itertools.product(*axes):
         bodies = [_stage_body(prep, i) for i in range(len(prep.spec.stages))]
         for index, _, key, value in combo:
-            bodies[index] = _changed(bodies[index], key, value)
+            bodies[index] = _changed(bodies[index], key, value, prep.task.task)
         name = ", ".join(f"{stage}.{key}={value}" for _, stage, key, value in combo)
-        checked = spec_from_dict({"input": {"path": "-", "label": "-"}, "stages": bodies},
-                                 source=f"--vary {name}")
+        checked = spec_from_dict({"input": {"path": "-", "label": "-", "task": prep.task.task},
+                                  "stages": bodies}, source=f"--vary {name}")
         out.append((name, replace(prep, spec=replace(prep.spec, stages=checked.stages))))
     return out
 
@@ -150,35 +152,46 @@ def _record(result: dict[str, Any], key: tuple[str, int | None], curated: bool) 
                 if (r["model"], r["k"], r["curated"]) == (*key, curated))
 
 
+def scores_of(task: str) -> tuple[str, str, int]:
+    """The score a ranking sorts by, the second score it shows, and +1 when higher is better.
+
+    Examples
+    --------
+    >>> scores_of("classification"), scores_of("regression")
+    (('accuracy', 'balanced_accuracy', 1), ('rmse', 'mae', -1))
+    """
+    return ("rmse", "mae", -1) if task == "regression" else ("accuracy", "balanced_accuracy", 1)
+
+
 def ranking(results: dict[str, dict[str, Any]], ratio: float) -> list[dict[str, Any]]:
-    """Variants (and no curation) ranked by mean accuracy, with the paired tests.
+    """Variants (and no curation) ranked by mean accuracy (regression: mean RMSE, lowest
+    first), with the paired tests.
 
     ``results`` maps variant name to its evaluation; ``ratio`` is n_test / n_train.
     """
     first = next(iter(results.values()))
+    metric, second, sign = scores_of(first.get("task", "classification"))
     key = _key(first)
     plain = _record(first, key, False)
-    rows = [{"variant": NONE, "accuracy": plain["accuracy"],
-             "balanced_accuracy": plain["balanced_accuracy"], "kept_share": 1.0,
-             "fold_accuracy": plain["fold_accuracy"]}]
+    rows = [{"variant": NONE, metric: plain[metric], second: plain[second], "kept_share": 1.0,
+             "folds": plain[f"fold_{metric}"]}]
     for name, result in results.items():
         r = _record(result, key, True)
-        rows.append({"variant": name, "accuracy": r["accuracy"],
-                     "balanced_accuracy": r["balanced_accuracy"], "kept_share": r["kept_share"],
-                     "fold_accuracy": r["fold_accuracy"]})
-    rows.sort(key=lambda r: -r["accuracy"])
+        rows.append({"variant": name, metric: r[metric], second: r[second],
+                     "kept_share": r["kept_share"], "folds": r[f"fold_{metric}"]})
+    rows.sort(key=lambda r: -sign * r[metric])
     best = next(r for r in rows if r["variant"] != NONE)
     for r in rows:
         for other, tag in ((rows[[x["variant"] for x in rows].index(NONE)], "none"),
                            (best, "best")):
             same = r["variant"] == other["variant"]
             _, p = (0.0, 1.0) if same else corrected_resampled_ttest(
-                r["fold_accuracy"], other["fold_accuracy"], ratio)
-            r[f"difference_to_{tag}"] = r["accuracy"] - other["accuracy"]
+                r["folds"], other["folds"], ratio)
+            r[f"difference_to_{tag}"] = r[metric] - other[metric]
             r[f"p_value_to_{tag}"] = p
     for rank, r in enumerate(rows, start=1):
         r.update(rank=rank, model=key[0], k=key[1])
-        del r["fold_accuracy"]
+        del r["folds"]
     return rows
 
 
@@ -207,6 +220,8 @@ def recommendation(rows: Sequence[dict[str, Any]], alpha: float = 0.05) -> str:
     model = f"{rows[0]['k']}-NN" if rows[0]["k"] is not None else \
         str(rows[0]["model"]).rsplit(".", 1)[-1]
     cleaned = [r for r in rows if r["variant"] != NONE]
+    if "rmse" in rows[0]:
+        return _rmse_recommendation(cleaned, model, alpha)
     best = cleaned[0]
     gain, p = best["difference_to_none"], best["p_value_to_none"]
     if gain > 0 and p < alpha:
@@ -224,6 +239,35 @@ def recommendation(rows: Sequence[dict[str, Any]], alpha: float = 0.05) -> str:
     text += "".join(f"; `{r['variant']}` loses {_points(r['difference_to_none'])} "
                     f"(p = {r['p_value_to_none']:.2g})"
                     for r in cleaned[1:] if r["difference_to_none"] < 0)
+    return text
+
+
+def _rmse_recommendation(cleaned: Sequence[dict[str, Any]], model: str, alpha: float) -> str:
+    """:func:`recommendation` for a regression table: RMSE in target units, lower is better.
+
+    Examples
+    --------
+    >>> _rmse_recommendation([{"variant": "committee", "difference_to_none": -3.21,
+    ...                        "p_value_to_none": 0.01}], "5-NN", 0.05)
+    'on this table, `committee` lowers 5-NN RMSE by 3.21 over no cleaning (p = 0.01)'
+    """
+    best = cleaned[0]
+    gain, p = -best["difference_to_none"], best["p_value_to_none"]
+    if gain > 0 and p < alpha:
+        text = (f"on this table, `{best['variant']}` lowers {model} RMSE by {gain:.3g} over no "
+                f"cleaning (p = {p:.2g})")
+    elif gain > 0:
+        text = (f"on this table, no cleaning tried clearly helps: the best, "
+                f"`{best['variant']}`, lowers {model} RMSE by {gain:.3g} (p = {p:.2g}, not "
+                "significant)")
+    else:
+        text = (f"on this table, cleaning raises {model} RMSE: every variant scores at or "
+                f"above no cleaning, the best, `{best['variant']}`, "
+                + (f"raises it by {-gain:.3g} (p = {p:.2g})" if gain < 0 else "ties")
+                + "; keep every row")
+    text += "".join(f"; `{r['variant']}` raises it by {r['difference_to_none']:.3g} "
+                    f"(p = {r['p_value_to_none']:.2g})"
+                    for r in cleaned[1:] if r["difference_to_none"] > 0)
     return text
 
 

@@ -75,13 +75,26 @@ def _flags(run: Path, row_id: str) -> list[str]:
     flagged = pl.read_parquet(path)
     lines = []
     for rec in flagged.filter(_same_id(flagged["row_id"], row_id)).iter_rows(named=True):
-        said = ("suggests the label" if rec["action"] == "relabel" else
-                "reported it, suggesting the label")
+        what = "value" if isinstance(rec["suggested_label"], float) else "label"
+        said = (f"suggests the {what}" if rec["action"] == "relabel" else
+                f"reported it, suggesting the {what}")
         lines.append(f"  stage {rec['stage']!r} ({rec['method']}) {said} "
-                     f"{rec['suggested_label']!r} instead of {rec['label']!r}, reason "
-                     f"{rec['reason']!r}:")
+                     f"{_written(rec['suggested_label'])} instead of {_written(rec['label'])}, "
+                     f"reason {rec['reason']!r}:")
         lines.append(f"    {rec['detail']}")
     return lines
+
+
+def _written(value: Any) -> str:
+    """A label as quoted text, a target value as a number of six significant digits.
+
+    Examples
+    --------
+    >>> _written("seal-leak"), _written(13.846153846), _written(7)
+    ("'seal-leak'", '13.8462', '7')
+    """
+    return f"{value:.6g}" if isinstance(value, float) else \
+        str(value) if isinstance(value, int) else repr(value)
 
 
 def _removal_text(rec: dict[str, Any]) -> str:
@@ -92,7 +105,8 @@ def _removal_text(rec: dict[str, Any]) -> str:
     if rec["kept_as"] is not None:
         lines.append(f"  the kept row standing for it: {rec['kept_as']}")
     if rec.get("suggested_label") is not None:
-        lines.append(f"  the label the stage suggests for it: {rec['suggested_label']!r}")
+        what = "value" if isinstance(rec["suggested_label"], float) else "label"
+        lines.append(f"  the {what} the stage suggests for it: {_written(rec['suggested_label'])}")
     neighbours = list(zip(rec["neighbour_ids"], rec["neighbour_labels"], rec["neighbour_distances"],
                           strict=True))
     if neighbours:

@@ -10,7 +10,7 @@ declaration in the :func:`register` call below.
 
 Regression tables have their own table, :data:`REGRESSION_METHODS`: keys shared
 with classification (``exact-duplicates``, ``conflicting-duplicates``,
-``hardness``) name the regression form of the same job there; ``reg-enn``,
+``hardness``, ``committee``) name the regression form of the same job there; ``reg-enn``,
 ``reg-cnn`` and ``discretized`` exist for regression only. :func:`method_for`
 picks a stage's method by task and names the alternatives when there is none.
 
@@ -19,7 +19,8 @@ Examples
 >>> {'enn', 'renn', 'all-knn', 'tomek-links', 'ncr'} <= set(METHODS)
 True
 >>> sorted(REGRESSION_METHODS)
-['conflicting-duplicates', 'discretized', 'exact-duplicates', 'hardness', 'reg-cnn', 'reg-enn']
+['committee', 'conflicting-duplicates', 'discretized', 'exact-duplicates', 'hardness', 'reg-cnn', \
+'reg-enn']
 """
 
 from __future__ import annotations
@@ -35,6 +36,7 @@ from curate.methods.hybrid import DROP3, ICF
 from curate.methods.noise import CLASS_THRESHOLDS, COMMITTEE, IPF
 from curate.methods.one_sided import OSS
 from curate.methods.reg_duplicates import REG_CONFLICTING
+from curate.methods.reg_noise import REG_COMMITTEE
 from curate.methods.regression import REG_CNN, REG_ENN, REG_HARDNESS
 from curate.methods.scores import HARDNESS
 from curate.settings import FAULT_KINDS
@@ -82,8 +84,9 @@ METHODS: dict[str, MethodInfo] = register(
 # The classification methods that can run on target bins (they compare classes).
 _ON_BINS = {key: info for key, info in METHODS.items() if info.compares_classes}
 REGRESSION_METHODS: dict[str, MethodInfo] = register(
-    EXACT, REG_CONFLICTING, REG_ENN, REG_CNN, make_discretized(_ON_BINS), REG_HARDNESS)
-_INSTEAD = {"editing": "reg-enn", "condensing": "reg-cnn"}
+    EXACT, REG_CONFLICTING, REG_ENN, REG_CNN, make_discretized(_ON_BINS), REG_HARDNESS,
+    REG_COMMITTEE)
+_INSTEAD = {"editing": "reg-enn", "condensing": "reg-cnn", "label noise": "committee"}
 
 
 def _regression_alternatives(key: str) -> str:
@@ -113,8 +116,8 @@ def method_for(key: str, task: str, where: str = "") -> MethodInfo:
     curate.errors.UsageError: stage 'mislabels': method 'enn' compares classes, and this table's \
 target is a number (regression)
       hint: use method = "reg-enn" or method = "discretized" with method = "enn" inside it (the \
-target cut into bins); the methods for regression are: conflicting-duplicates, discretized, \
-exact-duplicates, hardness, reg-cnn, reg-enn; or set [input] task = "classification" if the \
+target cut into bins); the methods for regression are: committee, conflicting-duplicates, \
+discretized, exact-duplicates, hardness, reg-cnn, reg-enn; or set [input] task = "classification" if the \
 target holds classes
     """
     prefix = f"{where}: " if where else ""

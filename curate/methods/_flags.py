@@ -50,6 +50,13 @@ class Flags:
         label = self.names[suggestion]
         self.suggested[position] = label.item() if isinstance(label, np.generic) else label
 
+    def add_value(self, position: int, value: float, reason: str, detail: str, *,
+                  neighbours: Sequence[int] | np.ndarray = (),
+                  distances: Sequence[float] | np.ndarray = ()) -> None:
+        """Record a flagged row of a numeric target and the value suggested for it."""
+        self.records.add(position, reason, detail, neighbours=neighbours, distances=distances)
+        self.suggested[position] = float(value)
+
     def selection(self, action: str, info: dict[str, Any],
                   scores: dict[str, np.ndarray] | None = None) -> Selection:
         """Build the stage's selection for ``action``."""

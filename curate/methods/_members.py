@@ -1,4 +1,4 @@
-"""The classifiers of a label-noise committee: names, import paths and their parameters.
+"""The models of a label-noise committee: names, import paths and their parameters.
 
 A committee entry is written in a pipeline file as a string or a table:
 
@@ -9,6 +9,10 @@ A committee entry is written in a pipeline file as a string or a table:
   or more). These three learn from the space's coordinates.
 * the import path of any scikit-learn classifier with ``predict_proba``, such
   as ``"sklearn.naive_bayes.GaussianNB"``;
+
+On a numeric target (``regression=True``) the same names give regressors: the
+k-NN mean of the neighbours' targets, a random forest, a ridge regression and
+one regression tree; an import path must name a model with ``predict``.
 * a table ``{ model = "<name or path>", params = { ... } }`` to set its
   parameters.
 
@@ -25,8 +29,8 @@ from typing import Any
 
 from curate.errors import UsageError
 
-__all__ = ["BUILTIN", "DEFAULT_MODELS", "KNN", "Member", "describe_models", "estimator",
-           "models_problem", "parse_models"]
+__all__ = ["BUILTIN", "DEFAULT_MODELS", "KNN", "REGRESSORS", "Member", "describe_models",
+           "estimator", "models_problem", "parse_models"]
 
 KNN = "knn"
 # Built-in members other than the k-NN vote: (import path, default parameters). Why these
@@ -38,6 +42,13 @@ BUILTIN: dict[str, tuple[str, dict[str, Any]]] = {
     "linear": ("sklearn.linear_model.LogisticRegression", {"C": 100.0, "max_iter": 1000}),
     "tree": ("sklearn.tree.DecisionTreeClassifier",
              {"criterion": "entropy", "min_samples_leaf": 2}),
+}
+# The same names on a numeric target. The ridge's weak penalty matches the logistic
+# regression's C = 100 on coordinates in [0, 1].
+REGRESSORS: dict[str, tuple[str, dict[str, Any]]] = {
+    "trees": ("sklearn.ensemble.RandomForestRegressor", {"n_estimators": 100}),
+    "linear": ("sklearn.linear_model.Ridge", {"alpha": 0.01}),
+    "tree": ("sklearn.tree.DecisionTreeRegressor", {"min_samples_leaf": 2}),
 }
 KNN_DEFAULTS: dict[str, Any] = {"k": 5}
 DEFAULT_MODELS = ("knn", "trees", "linear")
@@ -51,6 +62,7 @@ class Member:
     name: str
     path: str | None
     params: dict[str, Any] = field(default_factory=dict)
+    regression: bool = False
 
     @property
     def is_knn(self) -> bool:
@@ -58,7 +70,7 @@ class Member:
         return self.path is None
 
 
-def _entry(value: Any, where: str) -> Member:
+def _entry(value: Any, where: str, regression: bool = False) -> Member:
     """One entry of ``models`` as a Member; raise UsageError naming ``where``."""
     if isinstance(value, Mapping):
         unknown = sorted(set(value) - {"model", "params"})
@@ -83,14 +95,15 @@ def _entry(value: Any, where: str) -> Member:
             raise UsageError(f"{where}: the knn member takes one parameter, k (an integer "
                              f">= 1), got {dict(given)}", hint="write { model = \"knn\", "
                                                                 "params = { k = 10 } }")
-        return Member(name, None, {"k": k})
-    path, defaults = BUILTIN.get(name, (name, {}))
-    member = Member(name, path, defaults | dict(given))
+        return Member(name, None, {"k": k}, regression)
+    path, defaults = (REGRESSORS if regression else BUILTIN).get(name, (name, {}))
+    member = Member(name, path, defaults | dict(given), regression)
     estimator(member, seed=0, where=where)  # imports and builds it once, to check it
     return member
 
 
-def parse_models(value: Any, key: str = "models") -> tuple[Member, ...]:
+def parse_models(value: Any, key: str = "models",
+                 regression: bool = False) -> tuple[Member, ...]:
     """Check a ``models`` list and return its members, in order.
 
     Examples
@@ -107,7 +120,7 @@ gives no probabilities to average
     if isinstance(value, str | Mapping) or not isinstance(value, Sequence) or not value:
         raise UsageError(f"{key}: got {value!r}, expected a non-empty list of models",
                          hint=f'write {key} = ["knn", "trees", "linear"]')
-    members = tuple(_entry(v, f"{key}[{i + 1}]") for i, v in enumerate(value))
+    members = tuple(_entry(v, f"{key}[{i + 1}]", regression) for i, v in enumerate(value))
     seen = [(m.name, repr(sorted(m.params.items()))) for m in members]
     if len(set(seen)) != len(seen):
         raise UsageError(f"{key}: a model appears twice with the same parameters",
@@ -115,7 +128,7 @@ gives no probabilities to average
     return members
 
 
-def models_problem(value: Any) -> str | None:
+def models_problem(value: Any, regression: bool = False) -> str | None:
     """Why ``value`` is not a valid ``models`` list, or None when it is.
 
     Examples
@@ -127,7 +140,7 @@ def models_problem(value: Any) -> str | None:
 and that the package is installed in curate's environment"
     """
     try:
-        parse_models(value)
+        parse_models(value, regression=regression)
     except UsageError as err:
         return f"{err.message}; {err.hint}" if err.hint else err.message
     return None
@@ -170,10 +183,15 @@ def estimator(member: Member, *, seed: int, where: str = "models") -> Any:
         raise UsageError(f"{where}: {member.path} does not take the parameters "
                          f"{member.params}: {err}",
                          hint="use the parameter names of the class's constructor") from None
+    kind = "regressor" if member.regression else "classifier"
     if not hasattr(model, "fit"):
         raise UsageError(f"{where}: {member.path!r} is not an estimator (it has no fit)",
-                         hint="name a scikit-learn classifier")
-    if not hasattr(model, "predict_proba"):
+                         hint=f"name a scikit-learn {kind}")
+    if member.regression and not hasattr(model, "predict"):
+        raise UsageError(f"{where}: {member.path!r} has no predict, so it predicts no targets",
+                         hint="name a scikit-learn regressor, such as "
+                              "'sklearn.ensemble.GradientBoostingRegressor'")
+    if not member.regression and not hasattr(model, "predict_proba"):
         raise UsageError(f"{where}: {member.path!r} has no predict_proba, so it gives no "
                          "probabilities to average",
                          hint="use a classifier with predict_proba (for SVC: params = "

@@ -35,8 +35,8 @@ from curate.methods._members import Member, estimator
 from curate.neighbours.search import kneighbors
 from curate.space.points import Space
 
-__all__ = ["OutOfFold", "coordinates", "doubt", "make_folds", "member_proba", "out_of_fold",
-           "sample_rows"]
+__all__ = ["OutOfFold", "coordinates", "doubt", "knn_out_of_fold", "make_folds", "member_proba",
+           "out_of_fold", "sample_rows"]
 
 
 @dataclass
@@ -179,7 +179,20 @@ def _wide(k: int, folds: int, n: int) -> int:
 def _knn_out_of_fold(space: Space, codes: np.ndarray, n_classes: int, k: int,
                      fold: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """k-NN votes of each row's k nearest rows among the other folds: (proba, dist, nbr)."""
-    n, folds = len(codes), int(fold.max()) + 1
+    out_d, out_i = knn_out_of_fold(space, k, fold)
+    return _votes(codes, out_i, n_classes), out_d, out_i
+
+
+def knn_out_of_fold(space: Space, k: int, fold: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's k nearest rows among the other folds, and their distances: (dist, nbr).
+
+    Examples
+    --------
+    >>> s = Space.from_matrix([[0.0], [1.0], [2.0], [3.0]])
+    >>> knn_out_of_fold(s, 1, np.array([0, 1, 0, 1]))[1][:, 0].tolist()
+    [1, 0, 1, 2]
+    """
+    n, folds = len(fold), int(fold.max()) + 1
     smallest = n - int(np.bincount(fold).max())
     if smallest < k:
         raise UsageError(f"models: knn with k = {k} needs {k} rows outside each fold, but "
@@ -197,7 +210,7 @@ def _knn_out_of_fold(space: Space, codes: np.ndarray, n_classes: int, k: int,
             out_d[again], out_i[again] = kneighbors(space, k, queries=again,
                                                     reference=np.flatnonzero(fold != f),
                                                     exclude_self=False)
-    return _votes(codes, out_i, n_classes), out_d, out_i
+    return out_d, out_i
 
 
 def sample_rows(train: np.ndarray, codes: np.ndarray, cap: int, seed: int,

@@ -68,16 +68,23 @@ class MethodInfo:
             return 1.0, True
         return 0.5, False
 
-    def limit_text(self) -> str:
+    def limit_text(self, task: str = "classification") -> str:
         """The default safety limit in words, for `curate methods`.
+
+        On a regression table the limit bounds the share of all the stage's rows.
 
         Examples
         --------
         >>> from curate.methods import METHODS
         >>> METHODS["enn"].limit_text()
         'at most 50% of each class (max_removed_share = 0.5)'
+        >>> METHODS["enn"].limit_text("regression")
+        "at most 50% of the stage's rows (max_removed_share = 0.5)"
         """
         share, keep = self.default_limit()
+        if task == "regression":
+            return ("none: any share of the stage's rows" if share >= 1.0 else
+                    f"at most {share:.0%} of the stage's rows (max_removed_share = {share:g})")
         if keep:
             return "any share of a class, but every class keeps at least one row"
         return f"at most {share:.0%} of each class (max_removed_share = {share:g})"

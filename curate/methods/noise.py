@@ -316,7 +316,7 @@ COMMITTEE = MethodInfo(
     reference="Brodley and Friedl 1999",
     purpose="flag likely mislabels: rows that a committee of different classifiers, each "
             "fitted without them, predicts as another label; score every row's doubt",
-    func=committee,
+    func=committee, catches=("label-flip",),
     params=(_MODELS, _FOLDS, Param("vote", str, "consensus", _VOTE.doc, choices=_VOTE.choices),
             _MIN_DOUBT, _FIT_ROWS, _ACTION),
     reasons={"committee-disagrees": "the majority (or all) of the committee's models, "
@@ -328,7 +328,7 @@ IPF = MethodInfo(
     reference="Khoshgoftaar and Rebours 2007",
     purpose="flag likely mislabels in rounds: models fitted on one part each vote on every "
             "row, until rounds stop finding many",
-    func=ipf,
+    func=ipf, catches=("label-flip",),
     params=(Param("models", (list, tuple), IPF_MODELS, _MODELS.doc, check=_MODELS.check,
                   check_says=_MODELS.check_says, explain=models_problem),
             Param("folds", int, 5, "parts per round; each model is fitted on one part", low=2),
@@ -348,7 +348,7 @@ CLASS_THRESHOLDS = MethodInfo(
     purpose="flag as many rows per class as the confident joint estimates are mislabelled, "
             "first those whose own label's probability is below its class's threshold while "
             "another class's reaches its own",
-    func=class_thresholds, params=(_MODELS, _FOLDS, _FIT_ROWS, _ACTION),
+    func=class_thresholds, catches=("label-flip",), params=(_MODELS, _FOLDS, _FIT_ROWS, _ACTION),
     reasons={"below-class-threshold": "its own label's out-of-fold probability is below that "
                                       "class's mean self-confidence while another class's "
                                       "reaches its own",

@@ -251,7 +251,7 @@ REG_ENN = MethodInfo(
     reference="Kordos and Blachnik 2012",
     purpose="remove likely wrong targets: rows whose target lies more than alpha standard "
             "deviations of their k nearest neighbours' targets from those neighbours' mean",
-    func=reg_enn, catches=("outlier",),
+    func=reg_enn, catches=("outlier",), judged_by_lists=True,
     params=(Param("k", int, 9, "neighbours whose targets give the mean and the spread", low=1),
             Param("alpha", float, 3.0, "how many of the neighbours' standard deviations a "
                   "target may be off", check=lambda v: v > 0, check_says=_ALPHA_SAYS),
@@ -282,7 +282,7 @@ REG_HARDNESS = MethodInfo(
     family="scores", reference="common practice",
     purpose="score each row by how far its target lies from its k nearest neighbours' mean, in "
             "standard deviations of the target; optionally remove rows at or above a threshold",
-    func=regression_hardness, catches=("outlier",),
+    func=regression_hardness, catches=("outlier",), judged_by_lists=True,
     params=(Param("k", int, 5, "neighbours whose mean target the row is compared with", low=1),
             Param("threshold", float, None, "remove rows whose score is at least this (none: "
                   "score only)", check=lambda v: v > 0, check_says=_ALPHA_SAYS),

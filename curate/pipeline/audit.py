@@ -14,7 +14,7 @@ import numpy as np
 import pandera.polars as pa
 import polars as pl
 
-__all__ = ["AUDIT_COLUMNS", "AuditLog", "audit_schema"]
+__all__ = ["AUDIT_COLUMNS", "AuditLog", "audit_schema", "suggestions_like"]
 
 AUDIT_COLUMNS = ("row_id", "stage", "method", "reason", "detail", "label", "neighbour_ids",
                  "neighbour_labels", "neighbour_distances", "kept_as", "step", "suggested_label")
@@ -93,7 +93,7 @@ class AuditLog:
         """Suggested labels in the label column's own type (null where none)."""
         if values is None:
             return pl.Series([None] * n, dtype=self.labels.dtype)
-        return pl.Series(list(values), dtype=self.labels.dtype, strict=False)
+        return suggestions_like(values, self.labels.dtype)
 
     def frame(self, unique_ids: bool = True) -> pl.DataFrame:
         """The audit table, checked against :func:`audit_schema`."""
@@ -111,6 +111,25 @@ class AuditLog:
                 schema_overrides={"stage": pl.String, "method": pl.String, "reason": pl.String,
                                   "detail": pl.String})
         return audit_schema(unique_ids).validate(table)
+
+
+def suggestions_like(values: Sequence[object], dtype: pl.DataType) -> pl.Series:
+    """Suggested labels (or target values) in the label column's type, null where none.
+
+    A suggested value for a whole-number target is rounded to the nearest
+    whole number, never cut off.
+
+    Examples
+    --------
+    >>> suggestions_like([None, 13.7, 2.2], pl.Int64).to_list()
+    [None, 14, 2]
+    >>> suggestions_like([None, "a"], pl.String).to_list()
+    [None, 'a']
+    """
+    items = list(values)
+    if dtype.is_integer():
+        items = [None if v is None else round(float(v)) for v in items]  # type: ignore[arg-type]
+    return pl.Series(items, dtype=dtype, strict=False)
 
 
 def _nest(values: pl.Series, lengths: np.ndarray) -> pl.Series:

@@ -165,7 +165,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     summary["engine"].update(_engine_facts(prep, outcomes))
     summary["rows_flagged_kept"] = flagged.height
     if "doubt" in scores:
-        summary["doubt"] = doubt_summary(scores["doubt"])
+        summary["doubt"] = doubt_summary(scores["doubt"], prep.task.task)
     return RunResult(table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None,
                      flagged if any(s.params.get("action") in ("relabel", "report")

@@ -11,6 +11,7 @@ import polars as pl
 
 from curate.io.task import TaskChoice
 from curate.methods.base import Selection
+from curate.pipeline.audit import suggestions_like
 from curate.settings import Spec, StageSettings
 from curate.space.points import Space
 
@@ -90,8 +91,8 @@ class RunResult:
             base = base.with_columns([pl.Series(name, values) for name, values
                                       in self.scores.items() if name not in base.columns])
         if self.relabel is not None:
-            base = base.with_columns(pl.Series(SUGGESTED, list(self.relabel),
-                                               dtype=prep.labels.dtype, strict=False))
+            base = base.with_columns(suggestions_like(list(self.relabel), prep.labels.dtype)
+                                     .alias(SUGGESTED))
         return base
 
     @cached_property

@@ -28,6 +28,13 @@ if TYPE_CHECKING:
 __all__ = ["build_summary", "doubt_summary", "versions"]
 
 DOUBT_LEVELS = (0.5, 0.75, 0.9)  # bands of the doubt score the summary and the report count
+# On a numeric target the doubt is a residual in standard deviations of the target.
+REGRESSION_DOUBT_LEVELS = (1.0, 2.0, 3.0)
+DOUBT_MEASURES = {
+    "classification": "1 - the committee's mean out-of-fold probability of the row's label",
+    "regression": "|target - the committee's mean out-of-fold prediction| in standard "
+                  "deviations of the target",
+}
 
 _PACKAGES = ("curate", "polars", "numpy", "scipy", "scikit-learn", "imbalanced-learn", "pandera")
 
@@ -104,7 +111,7 @@ def _stage_record(prep: Prepared, out: StageOutcome) -> dict[str, Any]:
     return record
 
 
-def doubt_summary(values: np.ndarray) -> dict[str, Any]:
+def doubt_summary(values: np.ndarray, task: str = "classification") -> dict[str, Any]:
     """How the doubt score is spread over the rows a label-noise stage scored.
 
     Examples
@@ -112,14 +119,18 @@ def doubt_summary(values: np.ndarray) -> dict[str, Any]:
     >>> d = doubt_summary(np.array([0.1, 0.6, 0.95, np.nan]))
     >>> d["rows_scored"], d["at_least"], round(d["mean"], 3)
     (3, {'0.5': 2, '0.75': 1, '0.9': 1}, 0.55)
+    >>> doubt_summary(np.array([0.2, 1.5, 4.0]), "regression")["at_least"]
+    {'1': 2, '2': 1, '3': 1}
     """
+    levels = REGRESSION_DOUBT_LEVELS if task == "regression" else DOUBT_LEVELS
     scored = values[np.isfinite(values)]
     quantiles = (np.quantile(scored, (0.5, 0.9, 0.99)).tolist() if len(scored)
                  else [None, None, None])
     return {"rows_scored": int(len(scored)),
             "mean": float(scored.mean()) if len(scored) else None,
             "median": quantiles[0], "q90": quantiles[1], "q99": quantiles[2],
-            "at_least": {f"{level:g}": int(np.sum(scored >= level)) for level in DOUBT_LEVELS}}
+            "at_least": {f"{level:g}": int(np.sum(scored >= level)) for level in levels},
+            "measure": DOUBT_MEASURES[task]}
 
 
 def build_summary(prep: Prepared, outcomes: list[StageOutcome], kept_positions: np.ndarray,

@@ -50,12 +50,19 @@ def doubt_section(result: RunResult) -> str:
                   if d["median"] is not None else "-")]]
     rows += [[cell(f"rows with doubt at least {level}"), cell(n, f"doubt.at_least.{level}")]
              for level, n in d["at_least"].items()]
+    regression = s.get("task", {}).get("task") == "regression"
     note = ('<p class="note">Doubt = 1 - the out-of-fold probability of the row\'s own label, '
             "averaged over the committee; each model judged rows it was not fitted on. It is "
             "statistical evidence, not proof: in classes that overlap by nature, correct rows "
             "get high doubt too. Review relabelling wherever people are affected.</p>")
+    if regression:
+        note = ('<p class="note">Doubt = how far the row\'s target lies from the committee\'s '
+                "mean out-of-fold prediction, in standard deviations of the target; each model "
+                "judged rows it was not fitted on. It is statistical evidence, not proof: a "
+                "genuine extreme value the features do not explain gets high doubt too. Review "
+                "suggested values before you train on them.</p>")
     return (note + table(["", ""], rows)
-            + image(doubt_plot(_fates(result)),
+            + image(doubt_plot(_fates(result), regression),
                     "histogram of doubt, kept, flagged and removed rows apart")
             + "".join(f'<p class="note">{html.escape(t)}</p>' for t in _actions(s)))
 
@@ -63,7 +70,7 @@ def doubt_section(result: RunResult) -> str:
 def _actions(s: Mapping[str, Any]) -> list[str]:
     """One sentence per label-noise stage that kept the rows it flagged."""
     return [f"Stage {st['name']!r} ({st['method']}) flagged {st['flagged_kept']:,} rows and "
-            + ("kept them with a suggested label (suggested_label in kept.parquet)."
+            + ("kept them with a suggested label or value (suggested_label in kept.parquet)."
                if st["info"].get("action") == "relabel" else "only reported them.")
             + " They are listed in flagged.parquet."
             for st in s["stages"] if "flagged_kept" in st]

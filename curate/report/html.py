@@ -204,14 +204,16 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
 
     parts = [section("headline", "Headline", _headline(s)),
              section("flow", "Stage by stage", _flow(s))]
-    if s.get("task", {}).get("task") == "regression":
+    regression = s.get("task", {}).get("task") == "regression"
+    if regression:
         parts += [section("target", "The target before and after", target_section(result)),
                   section("residuals", "Targets against their neighbours", residual_section(result))]
     else:
         parts.append(section("classes", "Class balance", _classes(s)))
     doubt = doubt_section(result)
     if doubt:
-        parts.append(section("doubt", "Doubt about labels", doubt))
+        parts.append(section("doubt", "Doubt about targets" if regression else
+                             "Doubt about labels", doubt))
     parts += [section("projection", "Where the removed rows lie", _projection(result)),
               section("distances", "Nearest-neighbour distances", _distances(result))]
     if evaluation is not None:

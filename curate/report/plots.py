@@ -138,8 +138,11 @@ def projection_plot(xy: np.ndarray, reasons: np.ndarray, explained: Sequence[flo
     return _uri(fig)
 
 
-def doubt_plot(groups: Mapping[str, np.ndarray]) -> str:
-    """Stacked histogram of the doubt score on [0, 1], one colour per group of rows.
+def doubt_plot(groups: Mapping[str, np.ndarray], regression: bool = False) -> str:
+    """Stacked histogram of the doubt score, one colour per group of rows.
+
+    On [0, 1] for classes; for a numeric target (a residual in standard
+    deviations) from 0 to the largest score, at most 10.
 
     Examples
     --------
@@ -152,10 +155,15 @@ def doubt_plot(groups: Mapping[str, np.ndarray]) -> str:
     colours = [_KEPT if name == "kept" else _COLOURS[i % len(_COLOURS)]
                for i, name in enumerate(names)]
     if names:
-        ax.hist([groups[n] for n in names], bins=np.linspace(0, 1, 41).tolist(), stacked=True,
-                color=colours, label=names)
+        top = 1.0
+        if regression:
+            top = min(10.0, max(1.0, max(float(groups[n].max()) for n in names)))
+        ax.hist([np.minimum(groups[n], top) for n in names],
+                bins=np.linspace(0, top, 41).tolist(), stacked=True, color=colours, label=names)
         ax.legend(frameon=False)
-    ax.set_xlabel("doubt (1 - out-of-fold probability of the row's own label)")
+    ax.set_xlabel("doubt (|target - out-of-fold prediction| in standard deviations; 10 and "
+                  "more at the right edge)" if regression else
+                  "doubt (1 - out-of-fold probability of the row's own label)")
     ax.set_ylabel("rows")
     return _uri(fig)
 

@@ -135,3 +135,34 @@ def test_evaluate_out_writes_a_report_that_agrees_with_its_json(make_pipeline, d
     first = result["results"][0]
     assert f'data-key="evaluation.results.0.rmse" data-value="{first["rmse"]}"' in page
     assert "Injected outliers" in page and "RMSE against k" in page and 'id="target"' in page
+
+
+def test_committee_relabels_targets_with_numbers_and_the_report_says_so(make_pipeline, diabetes,
+                                                                        tmp_path, capsys) -> None:
+    """The regression committee through a run: the label column is never changed; the
+    suggested value is the committee's out-of-fold mean prediction (checked against
+    scikit-learn in tests/methods/test_regression_committee.py), a number here too."""
+    from curate.evaluation.regression_stats import inject_outliers
+
+    moved_y, moved = inject_outliers(diabetes["y"].to_numpy(), 0.05, 3)
+    frame = diabetes.with_columns(pl.Series("y", moved_y))
+    path = make_pipeline(frame, [{"name": "targets", "method": "committee",
+                                  "action": "relabel", "unit": "points"}])
+    assert main(["run", str(path), "--quiet"]) == 0
+    run = tmp_path / "run"
+    kept = pl.read_parquet(run / "kept.parquet")
+    assert kept.height == frame.height and kept["y"].equals(frame["y"])
+    assert kept.schema["suggested_label"] == pl.Float64
+    flagged = pl.read_parquet(run / "flagged.parquet")
+    assert flagged.height > 0 and moved[flagged["row_id"].to_numpy()].mean() >= 0.9
+    suggested = kept.filter(pl.col("suggested_label").is_not_null())
+    assert sorted(suggested["row_id"].to_list()) == sorted(flagged["row_id"].to_list())
+    summary = json.loads((run / "summary.json").read_text())
+    assert summary["doubt"]["measure"].startswith("|target - the committee's mean")
+    assert set(summary["doubt"]["at_least"]) == {"1", "2", "3"}
+    page = (run / "report.html").read_text()
+    assert "Doubt about targets" in page and "standard deviations of the target" in page
+    row = str(flagged["row_id"][0])
+    assert main(["why", row, "--run", str(run)]) == 0
+    text = capsys.readouterr().out
+    assert "suggests the value" in text and " points is " in text
