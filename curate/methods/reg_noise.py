@@ -24,6 +24,7 @@ from typing import Any
 
 import numpy as np
 
+from curate.errors import UsageError, counted
 from curate.methods._flags import ACTIONS, Flags
 from curate.methods._members import DEFAULT_MODELS, Member, estimator, parse_models
 from curate.methods._members import describe_models as _describe
@@ -135,6 +136,14 @@ deviations away (knn 13.6 h, linear 14.0 h)"
     """
     y = check_targets(targets, where="committee")
     members = parse_models(models, regression=True)
+    if space.n == 0:
+        return Flags(0, np.zeros(0)).selection(action, {"folds": folds, "vote": vote},
+                                               {"doubt": np.zeros(0)})
+    if space.n < folds:
+        raise UsageError(f"committee: folds = {folds}, but the stage has only "
+                         f"{counted(space.n, 'row')}",
+                         hint=f"lower folds to {space.n}" if space.n >= 2 else
+                         "a committee cannot judge fewer than two rows")
     fold = _fold_of(y, folds, seed % 2**32)
     predictions, dist, nbr = out_of_fold_predictions(space, y, members, fold, seed % 2**32,
                                                      fit_rows)

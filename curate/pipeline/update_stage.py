@@ -11,7 +11,8 @@ Per family (see :func:`update_stage`):
   run's;
 * exact and conflicting copies: only the groups of equal rows that gained or
   lost a row are judged again, by the method itself; the other groups keep
-  their records;
+  their records (conflicting targets of a regression table run in full: their
+  tolerance and the audit's decimals follow the spread of every target);
 * near copies: new rows at the end of the input are judged by the leader
   scheme against the kept leaders, as a full run would judge them;
 * condensing: :mod:`curate.pipeline.update_condense`;
@@ -186,6 +187,10 @@ def update_stage(inp: StageInput) -> StageUpdate:
         return full_rerun(inp, "the stage had no rows in the run")
     if method_for(method, inp.prep.task.task).judged_by_lists:
         return _listed(inp)
+    if method == "conflicting-duplicates" and inp.prep.task.task == "regression":
+        return full_rerun(inp, "conflicting targets are judged against the spread of all the "
+                               "stage's targets, which every new row moves: it reruns in full "
+                               "(same result as a full run)")
     if method in COPY_METHODS:
         return _copies(inp)
     if method == "near-duplicates":
