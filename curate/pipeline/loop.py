@@ -28,7 +28,8 @@ from curate.pipeline.summary import build_summary, doubt_summary
 from curate.settings import StageSettings
 from curate.space.points import Space
 
-__all__ = ["SUGGESTED", "check_stages", "execute"]
+__all__ = ["SUGGESTED", "check_relabel_column", "check_stages", "execute", "noise_outputs",
+           "record_flags"]
 
 
 def check_stages(prep: Prepared) -> None:
@@ -78,7 +79,7 @@ def _record(prep: Prepared, audit: AuditLog, stage: StageSettings, active: np.nd
     return removed
 
 
-def _record_flags(prep: Prepared, flags: AuditLog, actions: list[str], relabel: np.ndarray,
+def record_flags(prep: Prepared, flags: AuditLog, actions: list[str], relabel: np.ndarray,
                   stage: StageSettings, active: np.ndarray, sel: Selection) -> None:
     """Record the rows a label-noise stage flagged but kept, and its suggested labels for the
     kept rows when it relabels (the input's label column itself is never changed)."""
@@ -120,7 +121,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     flags = AuditLog(prep.ids, prep.labels)
     actions: list[str] = []
     relabel = np.full(prep.frame.height, None, dtype=object)
-    _check_relabel_column(prep)
+    check_relabel_column(prep)
     _quarantine(prep, audit)
     active = np.arange(prep.space.n)
     ids_valid = prep.ids.gather(prep.valid_positions).to_list()
@@ -145,7 +146,7 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
             # the lists the stage searched serve its run without protection too
             spared_count = _spared(prep, spared, stage, active, sub, stage_labels, protected)
         removed_input = _record(prep, audit, stage, active, sel, suggested=sel.suggested)
-        _record_flags(prep, flags, actions, relabel, stage, active, sel)
+        record_flags(prep, flags, actions, relabel, stage, active, sel)
         sel.info["protected_spared"] = spared_count
         for name, values in sel.scores.items():
             full = scores.setdefault(name, np.full(prep.frame.height, np.nan))
@@ -159,25 +160,36 @@ def _execute(prep: Prepared, progress: Callable[[str], None] | None) -> RunResul
     kept_positions = prep.valid_positions[active]
     table = audit.frame()
     _check_outputs(prep, kept_positions, table)
-    flagged = flags.frame(unique_ids=False).with_columns(pl.Series("action", actions,
-                                                                   dtype=pl.String))
     summary = build_summary(prep, outcomes, kept_positions, table, time.perf_counter() - started)
     summary["engine"].update(_engine_facts(prep, outcomes))
+    flagged, suggestions = noise_outputs(prep, flags, actions, relabel, scores, summary)
+    return RunResult(table, summary, prep, kept_positions, scores,
+                     spared.frame(unique_ids=False) if len(prep.protected) else None,
+                     flagged, suggestions, outcomes)
+
+
+def noise_outputs(prep: Prepared, flags: AuditLog, actions: list[str], relabel: np.ndarray,
+                  scores: dict[str, np.ndarray], summary: dict[str, Any]
+                  ) -> tuple[pl.DataFrame | None, np.ndarray | None]:
+    """What label-noise stages add to a result: the flagged-but-kept records (None when no
+    stage keeps what it flags), the suggested labels (None when no stage relabels), and the
+    summary's count of flagged rows and spread of the doubt score."""
+    flagged = flags.frame(unique_ids=False).with_columns(pl.Series("action", actions,
+                                                                   dtype=pl.String))
     summary["rows_flagged_kept"] = flagged.height
     if "doubt" in scores:
         summary["doubt"] = doubt_summary(scores["doubt"], prep.task.task)
-    return RunResult(table, summary, prep, kept_positions, scores,
-                     spared.frame(unique_ids=False) if len(prep.protected) else None,
-                     flagged if any(s.params.get("action") in ("relabel", "report")
-                                    for s in prep.spec.stages) else None,
-                     relabel if _relabels(prep) else None, outcomes)
+    keeps = any(s.params.get("action") in ("relabel", "report") for s in prep.spec.stages)
+    return (flagged if keeps else None), (relabel if _relabels(prep) else None)
 
 
 def _relabels(prep: Prepared) -> bool:
     return any(s.params.get("action") == "relabel" for s in prep.spec.stages)
 
 
-def _check_relabel_column(prep: Prepared) -> None:
+def check_relabel_column(prep: Prepared) -> None:
+    """Stop before any stage runs when a relabelling stage's column is already an input
+    column."""
     if _relabels(prep) and SUGGESTED in prep.frame.columns:
         raise UsageError(f"{prep.spec.input.path}: the input already has a column {SUGGESTED!r}, "
                          "where a stage with action = \"relabel\" writes its suggestions",

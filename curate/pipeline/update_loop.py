@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -27,6 +28,9 @@ from curate.pipeline.loop import (
     _quarantine,
     _record,
     _spared,
+    check_relabel_column,
+    noise_outputs,
+    record_flags,
 )
 from curate.pipeline.records import Prepared, RunResult, StageOutcome
 from curate.pipeline.stage import safety_breach
@@ -36,6 +40,15 @@ from curate.pipeline.update_records import Listed, OldStage, StageInput, StageUp
 from curate.pipeline.update_stage import update_stage
 
 __all__ = ["old_stages", "update_stages"]
+
+
+@dataclass
+class _Noise:
+    """What label-noise stages flag but keep, as the run loop collects it."""
+
+    flags: AuditLog
+    actions: list[str]
+    relabel: np.ndarray
 
 
 def _positions(state: RunState) -> pl.DataFrame:
@@ -85,7 +98,9 @@ def _summary_selection(upd: StageUpdate, inp: StageInput) -> Selection:
     return Selection(kept=upd.kept, removed=removed, reason=reasons, detail=[], neighbours=[],
                      distances=[], kept_as=np.zeros(0, dtype=np.int64),
                      step=np.zeros(0, dtype=np.int64), info=dict(upd.selection.info),
-                     scores=upd.scores, groups=upd.selection.groups)
+                     scores=upd.scores, groups=upd.selection.groups,
+                     flagged=upd.selection.flagged, suggested=upd.selection.suggested,
+                     action=upd.selection.action)
 
 
 def _check_partition(upd: StageUpdate, inp: StageInput) -> np.ndarray:
@@ -118,6 +133,9 @@ def update_stages(prep: Prepared, state: RunState,
     say = progress or (lambda _msg: None)
     started = time.perf_counter()
     audit, spared = AuditLog(prep.ids, prep.labels), AuditLog(prep.ids, prep.labels)
+    noise = _Noise(AuditLog(prep.ids, prep.labels), [],
+                   np.full(prep.frame.height, None, dtype=object))
+    check_relabel_column(prep)
     _quarantine(prep, audit)
     active = np.arange(prep.space.n)
     ids_valid = prep.ids.gather(prep.valid_positions).to_list()
@@ -138,11 +156,16 @@ def update_stages(prep: Prepared, state: RunState,
         if calls:
             upd.selection.info["engine"] = summarise_calls(calls)
         removed = _check_partition(upd, inp)
-        breach = safety_breach(stage, inp.labels, removed, [ids_valid[a] for a in active],
-                               prep.task.task)
+        sel = upd.selection
+        # relabelling counts against the limit as removing does (see pipeline.stage.run_step)
+        relabelled = sel.flagged.removed if sel.action == "relabel" and sel.flagged else None
+        breach = safety_breach(stage, inp.labels, removed if relabelled is None else relabelled,
+                               [ids_valid[a] for a in active], prep.task.task,
+                               "remove" if relabelled is None else "relabel")
         if breach is not None:
             raise breach
-        _record(prep, audit, stage, active, upd.selection)
+        _record(prep, audit, stage, active, sel, suggested=sel.suggested)
+        record_flags(prep, noise.flags, noise.actions, noise.relabel, stage, active, sel)
         copied.append(_records_at(old.records, upd.copied))
         whole = _summary_selection(upd, inp)
         whole.info["protected_spared"] = _spare(prep, spared, inp, upd)
@@ -158,7 +181,7 @@ def update_stages(prep: Prepared, state: RunState,
         active = active[upd.kept]
         say(f"  removed {len(removed)} rows in {seconds:.2f} s ({upd.report['mode']})")
     order = {"schema": 0} | {s.name: i for i, s in enumerate(prep.spec.stages, start=1)}
-    return _assemble(prep, audit, copied, order, active, scores, outcomes, spared,
+    return _assemble(prep, audit, copied, order, active, scores, outcomes, spared, noise,
                      time.perf_counter() - started), reports
 
 
@@ -175,12 +198,15 @@ def _spare(prep: Prepared, spared: AuditLog, inp: StageInput, upd: StageUpdate) 
 
 def _assemble(prep: Prepared, audit: AuditLog, copied: list[pl.DataFrame],
               order: dict[str, int], active: np.ndarray, scores: dict[str, np.ndarray],
-              outcomes: list[StageOutcome], spared: AuditLog, seconds: float) -> RunResult:
+              outcomes: list[StageOutcome], spared: AuditLog, noise: _Noise,
+              seconds: float) -> RunResult:
     kept_positions = prep.valid_positions[active]
     table = _audit(prep, audit, copied, order)
     _check_outputs(prep, kept_positions, table)
     summary = build_summary(prep, outcomes, kept_positions, table, seconds)
     summary["engine"].update(_engine_facts(prep, outcomes))
+    flagged, suggestions = noise_outputs(prep, noise.flags, noise.actions, noise.relabel,
+                                         scores, summary)
     return RunResult(table, summary, prep, kept_positions, scores,
                      spared.frame(unique_ids=False) if len(prep.protected) else None,
-                     outcomes=outcomes)
+                     flagged, suggestions, outcomes)
