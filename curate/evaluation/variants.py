@@ -216,58 +216,44 @@ def recommendation(rows: Sequence[dict[str, Any]], alpha: float = 0.05) -> str:
     >>> recommendation(rows)
     'on this table, `committee` gains 2.1 points of 1-NN accuracy over no cleaning (p = 0.01); \
 `enn` loses 4.3 (p = 0.02)'
+    >>> recommendation([{"variant": "committee", "rmse": 60.9, "difference_to_none": -3.21,
+    ...                  "p_value_to_none": 0.01, "model": "knn", "k": 5}])
+    'on this table, `committee` lowers 5-NN RMSE by 3.21 over no cleaning (p = 0.01)'
     """
     model = f"{rows[0]['k']}-NN" if rows[0]["k"] is not None else \
         str(rows[0]["model"]).rsplit(".", 1)[-1]
     cleaned = [r for r in rows if r["variant"] != NONE]
-    if "rmse" in rows[0]:
-        return _rmse_recommendation(cleaned, model, alpha)
+    if "rmse" in rows[0]:  # lower is better; differences in target units
+        sign, side, hurt = -1, "above", f"raises {model} RMSE"
+
+        def gains(g: float) -> str:
+            return f"lowers {model} RMSE by {g:.3g}"
+
+        def loses(g: float, best: bool) -> str:
+            return f"raises it by {g:.3g}"
+    else:
+        sign, side, hurt = 1, "below", f"lowers {model} accuracy"
+
+        def gains(g: float) -> str:
+            return f"gains {_points(g)} points of {model} accuracy"
+
+        def loses(g: float, best: bool) -> str:
+            return f"loses {_points(g)}" + (" points" if best else "")
     best = cleaned[0]
-    gain, p = best["difference_to_none"], best["p_value_to_none"]
+    gain, p = sign * best["difference_to_none"], best["p_value_to_none"]
     if gain > 0 and p < alpha:
-        text = (f"on this table, `{best['variant']}` gains {_points(gain)} points of {model} "
-                f"accuracy over no cleaning (p = {p:.2g})")
+        text = f"on this table, `{best['variant']}` {gains(gain)} over no cleaning (p = {p:.2g})"
     elif gain > 0:
         text = (f"on this table, no cleaning tried clearly helps: the best, "
-                f"`{best['variant']}`, gains {_points(gain)} points of {model} accuracy "
-                f"(p = {p:.2g}, not significant)")
+                f"`{best['variant']}`, {gains(gain)} (p = {p:.2g}, not significant)")
     else:
-        text = (f"on this table, cleaning lowers {model} accuracy: every variant scores at or "
-                f"below no cleaning, the best, `{best['variant']}`, "
-                + (f"loses {_points(gain)} points (p = {p:.2g})" if gain < 0 else "ties")
+        text = (f"on this table, cleaning {hurt}: every variant scores at or {side} no "
+                f"cleaning, the best, `{best['variant']}`, "
+                + (f"{loses(-gain, True)} (p = {p:.2g})" if gain < 0 else "ties")
                 + "; keep every row")
-    text += "".join(f"; `{r['variant']}` loses {_points(r['difference_to_none'])} "
+    text += "".join(f"; `{r['variant']}` {loses(-sign * r['difference_to_none'], False)} "
                     f"(p = {r['p_value_to_none']:.2g})"
-                    for r in cleaned[1:] if r["difference_to_none"] < 0)
-    return text
-
-
-def _rmse_recommendation(cleaned: Sequence[dict[str, Any]], model: str, alpha: float) -> str:
-    """:func:`recommendation` for a regression table: RMSE in target units, lower is better.
-
-    Examples
-    --------
-    >>> _rmse_recommendation([{"variant": "committee", "difference_to_none": -3.21,
-    ...                        "p_value_to_none": 0.01}], "5-NN", 0.05)
-    'on this table, `committee` lowers 5-NN RMSE by 3.21 over no cleaning (p = 0.01)'
-    """
-    best = cleaned[0]
-    gain, p = -best["difference_to_none"], best["p_value_to_none"]
-    if gain > 0 and p < alpha:
-        text = (f"on this table, `{best['variant']}` lowers {model} RMSE by {gain:.3g} over no "
-                f"cleaning (p = {p:.2g})")
-    elif gain > 0:
-        text = (f"on this table, no cleaning tried clearly helps: the best, "
-                f"`{best['variant']}`, lowers {model} RMSE by {gain:.3g} (p = {p:.2g}, not "
-                "significant)")
-    else:
-        text = (f"on this table, cleaning raises {model} RMSE: every variant scores at or "
-                f"above no cleaning, the best, `{best['variant']}`, "
-                + (f"raises it by {-gain:.3g} (p = {p:.2g})" if gain < 0 else "ties")
-                + "; keep every row")
-    text += "".join(f"; `{r['variant']}` raises it by {r['difference_to_none']:.3g} "
-                    f"(p = {r['p_value_to_none']:.2g})"
-                    for r in cleaned[1:] if r["difference_to_none"] > 0)
+                    for r in cleaned[1:] if sign * r["difference_to_none"] < 0)
     return text
 
 
