@@ -96,9 +96,13 @@ def _entry(value: Any, where: str, regression: bool = False) -> Member:
                              f">= 1), got {dict(given)}", hint="write { model = \"knn\", "
                                                                 "params = { k = 10 } }")
         return Member(name, None, {"k": k}, regression)
-    path, defaults = (REGRESSORS if regression else BUILTIN).get(name, (name, {}))
+    table = REGRESSORS if regression else BUILTIN
+    path, defaults = table.get(name, (name, {}))
     member = Member(name, path, defaults | dict(given), regression)
-    estimator(member, seed=0, where=where)  # imports and builds it once, to check it
+    if name not in table or given:
+        # imports and builds it once, to check it; a built-in with its own defaults needs no
+        # check (and every command would otherwise import scikit-learn's models at start-up)
+        estimator(member, seed=0, where=where)
     return member
 
 

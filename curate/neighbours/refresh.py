@@ -64,16 +64,19 @@ def refresh_lists(space: Space, rows: np.ndarray, old_rows: np.ndarray, old_dist
     ([[1], [3], [3], [2]], [1, 2], [3])
     """
     k = old_nbr.shape[1]
-    member = np.zeros(int(max(rows.max(initial=-1), old_rows.max(initial=-1))) + 1, dtype=bool)
-    member[rows] = True  # by input position: reaches the stage now
-    staying = member[old_rows]
-    here = np.searchsorted(rows, old_rows[staying])  # stage positions of the staying rows
-    listed = old_nbr[staying]
-    gone = ~member[listed]
+    # stage position by input position, -1 for rows not in the stage now (a gather, where a
+    # binary search of every listed neighbour took most of a second on a million rows)
+    where = np.full(int(max(rows.max(initial=-1), old_rows.max(initial=-1))) + 1, -1,
+                    dtype=np.int64)
+    where[rows] = np.arange(len(rows))
+    staying = where[old_rows] >= 0
+    here = where[old_rows[staying]]  # stage positions of the staying rows
+    listed = where[old_nbr[staying]]
+    gone = listed < 0
     dist = np.empty((len(rows), k))
     nbr = np.full((len(rows), k), -1, dtype=np.int64)
     dist[here] = old_dist[staying]
-    nbr[here] = np.searchsorted(rows, np.where(gone, rows[0], listed))
+    nbr[here] = np.where(gone, 0, listed)
     searched = np.ones(len(rows), dtype=bool)
     searched[here] = False
     entering = np.flatnonzero(searched)

@@ -17,7 +17,13 @@ import numpy as np
 
 from curate.report.cells import cell, image, marked, section, table
 from curate.report.evaluation import evaluation_section, over_limit_notes
-from curate.report.parts import MAX_POINTS, MAX_QUERIES, reasons_of_valid, sample
+from curate.report.parts import (
+    MAX_POINTS,
+    MAX_QUERIES,
+    principal_components,
+    reasons_of_valid,
+    sample,
+)
 from curate.report.regression import residual_section, target_section
 
 if TYPE_CHECKING:
@@ -126,8 +132,6 @@ def _classes(s: Mapping[str, Any]) -> str:
 
 
 def _projection(result: RunResult) -> str:
-    from sklearn.decomposition import PCA
-
     from curate.report.plots import projection_plot
 
     space = result.prepared.space
@@ -135,8 +139,7 @@ def _projection(result: RunResult) -> str:
     matrix = space.matrix[pick]
     if len(pick) < 2 or matrix.shape[1] == 0 or not np.any(matrix.std(axis=0) > 0):
         return '<p class="note">Too few distinct rows to draw a projection.</p>'
-    pca = PCA(n_components=min(2, matrix.shape[1]), random_state=result.summary["seed"])
-    xy = pca.fit_transform(matrix)
+    xy, explained = principal_components(matrix, min(2, matrix.shape[1]))
     if xy.shape[1] == 1:
         xy = np.column_stack([xy[:, 0], np.zeros(len(xy))])
     note = (f'<p class="note">Principal components of the rows as curate measures them '
@@ -144,7 +147,7 @@ def _projection(result: RunResult) -> str:
             f"{len(pick):,} of {space.n:,} rows shown"
             + (", a seeded uniform sample" if len(pick) < space.n else "") + ".</p>")
     return note + image(projection_plot(xy, reasons_of_valid(result, pick),
-                                         pca.explained_variance_ratio_.tolist()),
+                                         explained.tolist()),
                          "two-dimensional projection with removed rows marked")
 
 
