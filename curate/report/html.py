@@ -182,8 +182,16 @@ def _distances(result: RunResult) -> str:
                                              "histogram of nearest-neighbour distances"))
 
 
-def _cautions() -> str:
-    return "<ul>" + "".join(f"<li>{marked(c)}</li>" for c in CAUTIONS) + "</ul>"
+# On a numeric target the unusual is in the tails, not in a small class.
+REGRESSION_CAUTION = (
+    "On a numeric target the tails are the unusual: a genuine extreme value (a pump that ran "
+    "far longer than its peers) looks the same as a typing slip to editing and to the "
+    "committee. Compare the target before and after above, and keep max_removed_share on.")
+
+
+def _cautions(regression: bool = False) -> str:
+    cautions = (REGRESSION_CAUTION, *CAUTIONS) if regression else CAUTIONS
+    return "<ul>" + "".join(f"<li>{marked(c)}</li>" for c in cautions) + "</ul>"
 
 
 def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -> str:
@@ -221,7 +229,7 @@ def render_run(result: RunResult, evaluation: Mapping[str, Any] | None = None) -
               section("distances", "Nearest-neighbour distances", _distances(result))]
     if evaluation is not None:
         parts.append(section("evaluation", "Evaluation", evaluation_section(evaluation)))
-    parts.append(section("cautions", "Cautions", _cautions()))
+    parts.append(section("cautions", "Cautions", _cautions(regression)))
     title = "curate evaluation report" if evaluation is not None else "curate run report"
     body = "\n".join(parts)
     return f"""<!doctype html>

@@ -53,6 +53,7 @@ def test_run_says_which_task_and_why_and_describes_the_target(make_pipeline, dia
     assert audit["detail"].str.contains(" points is ").all()
     page = (tmp_path / "run" / "report.html").read_text()
     assert 'id="target"' in page and 'id="residuals"' in page and 'id="classes"' not in page
+    assert "On a numeric target the tails are the unusual" in page  # the caution (mission)
     assert f'data-key="target.before.mean" data-value="{before["mean"]}"' in page
 
 
