@@ -156,12 +156,19 @@ def _default(param: Param) -> str:
     return json.dumps(param.default) if isinstance(param.default, str | bool) else str(param.default)
 
 
-def review_text(rows: int, run: str, out: str, protect_path: str) -> str:
+def review_text(removed: int, flagged: int, run: str, out: str, protect_path: str) -> str:
     """What `curate review` wrote, and what the reviewer does next.
 
     ``protect_path`` is ``out`` as the pipeline file must name it (relative to its folder).
+
+    Examples
+    --------
+    >>> review_text(2, 3, "run", "r.csv", "r.csv").splitlines()[0]
+    'wrote 2 removed rows and 3 rows a label-noise stage flagged but kept of run to r.csv'
     """
-    return (f"wrote {counted(rows, 'removed row')} of {run} to {out}\n"
+    kept = f" and {counted(flagged, 'row')} a label-noise stage flagged but kept" \
+        if flagged else ""
+    return (f"wrote {counted(removed, 'removed row')}{kept} of {run} to {out}\n"
             "write keep in the decision column of rows that must stay (empty or remove: no "
             f"objection), then add to [input]: protect_file = {json.dumps(protect_path)}")
 

@@ -18,8 +18,8 @@ def cmd_review(args: argparse.Namespace) -> int:
     from curate.cli.render import review_text
     from curate.io.review import write_review
 
-    rows = write_review(args.run, args.out, overwrite=args.overwrite)
-    print(review_text(rows, args.run, args.out, protect_path(args.run, args.out)),
+    counts = write_review(args.run, args.out, overwrite=args.overwrite)
+    print(review_text(*counts, args.run, args.out, protect_path(args.run, args.out)),
           file=sys.stderr)
     return 0
 

@@ -16,6 +16,7 @@ import json
 from collections.abc import Callable
 from contextlib import AbstractContextManager
 from pathlib import Path
+from typing import NamedTuple
 
 import polars as pl
 
@@ -24,7 +25,8 @@ from curate.io.folder import run_folder
 from curate.io.outputs import Claim, claim_output
 from curate.io.spreadsheet import original_text, spreadsheet_safe
 
-__all__ = ["DECISIONS", "claim_csv", "protected_ids", "review_table", "write_review"]
+__all__ = ["DECISIONS", "ReviewCounts", "claim_csv", "protected_ids", "review_table",
+           "write_review"]
 
 DECISIONS = {
     "keep": "protect the row: no stage may remove it when the pipeline file names this file",
@@ -108,8 +110,16 @@ def _records(audit: pl.DataFrame, action: str | pl.Series, rows: pl.DataFrame) -
     return table.select(*_LEADING, *[c for c in rows.columns if c not in _LEADING])
 
 
-def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -> int:
-    """Write :func:`review_table` of ``run`` to the CSV file ``out``; return its row count.
+class ReviewCounts(NamedTuple):
+    """Rows a review lists: removed ones, and ones a label-noise stage flagged but kept."""
+
+    removed: int
+    flagged: int
+
+
+def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -> ReviewCounts:
+    """Write :func:`review_table` of ``run`` to the CSV file ``out``; return how many removed
+    and how many flagged-but-kept rows it lists.
 
     Text cells that a spreadsheet would run as a formula get a leading quote
     (:mod:`curate.io.spreadsheet`); :func:`protected_ids` takes it off again.
@@ -126,7 +136,8 @@ def write_review(run: str | Path, out: str | Path, *, overwrite: bool = False) -
     with claim_csv(Path(out), overwrite, [Path(run)], ("row_id", "decision")) as claim:
         table = review_table(run)
         claim.write_file(spreadsheet_safe(table).write_csv, int(table.estimated_size()))
-    return table.height
+    removed = int((table["action"] == "remove").sum())
+    return ReviewCounts(removed, table.height - removed)
 
 
 def _made_by_curate(*columns: str) -> Callable[[Path], bool]:

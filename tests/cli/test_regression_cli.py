@@ -167,3 +167,10 @@ def test_committee_relabels_targets_with_numbers_and_the_report_says_so(make_pip
     assert main(["why", row, "--run", str(run)]) == 0
     text = capsys.readouterr().out
     assert "suggests the value" in text and " points is " in text
+    assert main(["review", "--run", str(run), "--out", str(tmp_path / "review.csv")]) == 0
+    said = capsys.readouterr().err
+    assert f"wrote 0 removed rows and {flagged.height} rows a label-noise stage flagged but " \
+           "kept" in said
+    review = pl.read_csv(tmp_path / "review.csv")
+    assert review["action"].unique().to_list() == ["relabel"]
+    assert review["doubt"].to_list() == sorted(review["doubt"].to_list(), reverse=True)

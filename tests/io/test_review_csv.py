@@ -91,6 +91,6 @@ def test_a_run_that_removed_nothing_gives_a_header_only_file(tmp_path: Path) -> 
     """No removed row: the CSV has its header and no row."""
     wine_table(flip=0.0).write_csv(tmp_path / "table.csv")
     folder = make_run(tmp_path, [{"method": "exact-duplicates"}], "run")
-    assert write_review(folder, tmp_path / "review.csv") == 0
+    assert write_review(folder, tmp_path / "review.csv") == (0, 0)
     lines = (tmp_path / "review.csv").read_text().splitlines()
     assert len(lines) == 1 and lines[0].startswith("row_id,decision,stage,")
