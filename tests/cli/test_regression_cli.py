@@ -174,3 +174,14 @@ def test_committee_relabels_targets_with_numbers_and_the_report_says_so(make_pip
     review = pl.read_csv(tmp_path / "review.csv")
     assert review["action"].unique().to_list() == ["relabel"]
     assert review["doubt"].to_list() == sorted(review["doubt"].to_list(), reverse=True)
+
+
+def test_committee_folds_above_the_rows_is_exit_2(make_pipeline, capsys) -> None:
+    """Each fold needs a row (common practice, no source): the stage is stopped before it
+    runs, with the fold count that would work."""
+    frame = pl.DataFrame({"x": np.arange(8.0), "y": np.arange(8.0) * 1.5})
+    path = make_pipeline(frame, [{"name": "targets", "method": "committee", "folds": 10}],
+                         {"task": "regression"})
+    code, err = run_cli(path, capsys)
+    assert_clean_failure(path, code, err, 2, "stage 'targets'", "folds = 10",
+                         "only 8 rows", "lower folds to 8")
