@@ -66,7 +66,8 @@ def old_stages(state: RunState, prep: Prepared) -> list[OldStage]:
         how="left", maintain_order="left")
     records = state.audit.with_columns(slim["position"], slim["kept_position"])
     protected_ids = pl.Series(state.state.get("protected", []), dtype=where["row_id"].dtype)
-    protected = where.filter(pl.col("row_id").is_in(protected_ids.implode()))["position"]
+    protected = where.filter(pl.col("row_id").is_in(protected_ids.implode()))["position"] \
+        .to_numpy()
     rows = np.flatnonzero(state.rows["valid"].to_numpy())
     out: list[OldStage] = []
     for number, facts in enumerate(state.state["stages"]):
@@ -78,7 +79,7 @@ def old_stages(state: RunState, prep: Prepared) -> list[OldStage]:
             assert np.array_equal(state.lists[f"s{number}_rows"], rows)
             lists = (state.lists[f"s{number}_dist"], state.lists[f"s{number}_nbr"])
         out.append(OldStage(rows, removed, mine, lists, dict(facts.get("info", {})),
-                            protected.filter(protected.is_in(rows)).to_numpy(),
+                            protected[among(protected, rows)],
                             facts.get("metric", prep.space.metric)))
         rows = rows[~among(rows, removed)]
     return out
