@@ -30,7 +30,7 @@ from curate.space.labels import class_sizes, encode_labels
 from curate.space.points import Space
 
 __all__ = ["Step", "check_folds", "check_k", "looks_continuous", "removable_rows", "run_stage",
-           "run_step", "safety_breach", "verify_partition"]
+           "run_step", "safety_breach", "selection_breach", "verify_partition"]
 
 
 def removable_rows(stage: StageSettings, labels: np.ndarray, protected: np.ndarray,
@@ -265,7 +265,14 @@ def run_step(stage: StageSettings, space: Space, labels: np.ndarray, protected: 
     if calls:
         sel.info["engine"] = summarise_calls(calls)
     verify_partition(sel, space.n, stage)
+    return Step(sel, selection_breach(stage, labels, sel, sel.removed, ids, task))
+
+
+def selection_breach(stage: StageSettings, labels: np.ndarray, sel: Selection,
+                     removed: np.ndarray, ids: list[Any],
+                     task: str = "classification") -> SafetyLimitError | None:
+    """:func:`safety_breach` of a stage's result: its ``removed`` positions or, when it
+    relabels, the rows it relabels (relabelling half a class is as suspect as removing it)."""
     if sel.action == "relabel" and sel.flagged is not None:
-        # Relabelling half a class is as suspect as removing it: the same limit holds.
-        return Step(sel, safety_breach(stage, labels, sel.flagged.removed, ids, task, "relabel"))
-    return Step(sel, safety_breach(stage, labels, sel.removed, ids, task))
+        return safety_breach(stage, labels, sel.flagged.removed, ids, task, "relabel")
+    return safety_breach(stage, labels, removed, ids, task)

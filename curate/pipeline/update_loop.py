@@ -33,7 +33,7 @@ from curate.pipeline.loop import (
     record_flags,
 )
 from curate.pipeline.records import Prepared, RunResult, StageOutcome
-from curate.pipeline.stage import safety_breach
+from curate.pipeline.stage import selection_breach
 from curate.pipeline.state import RunState
 from curate.pipeline.summary import build_summary
 from curate.pipeline.update_records import Listed, OldStage, StageInput, StageUpdate, among
@@ -158,11 +158,8 @@ def update_stages(prep: Prepared, state: RunState,
             upd.selection.info["engine"] = summarise_calls(calls)
         removed = _check_partition(upd, inp)
         sel = upd.selection
-        # relabelling counts against the limit as removing does (see pipeline.stage.run_step)
-        relabelled = sel.flagged.removed if sel.action == "relabel" and sel.flagged else None
-        breach = safety_breach(stage, inp.labels, removed if relabelled is None else relabelled,
-                               [ids_valid[a] for a in active], prep.task.task,
-                               "remove" if relabelled is None else "relabel")
+        breach = selection_breach(stage, inp.labels, sel, removed,
+                                  [ids_valid[a] for a in active], prep.task.task)
         if breach is not None:
             raise breach
         _record(prep, audit, stage, active, sel, suggested=sel.suggested)

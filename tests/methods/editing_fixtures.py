@@ -14,6 +14,9 @@ from sklearn.preprocessing import MinMaxScaler
 
 from curate.space import Space
 
+# Our vote names -> imbalanced-learn's kind_sel (its ENN, RENN and All-kNN take the same).
+KINDS = {"majority": "mode", "unanimous": "all"}
+
 
 def dataset(name: str, *, flip: float = 0.0, seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
     """Return (X range-normalised, y), with a seeded share of labels flipped.

@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from editing_fixtures import (
+    KINDS,
     dataset,
     everyone,
     own_label_ties,
@@ -25,9 +26,6 @@ from imblearn.under_sampling import EditedNearestNeighbours
 from curate.methods.editing import enn
 
 pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
-
-KINDS = {"majority": "mode", "unanimous": "all"}
-
 
 @pytest.mark.parametrize("name", ["wine", "breast_cancer"])
 @pytest.mark.parametrize("flip", [0.0, 0.1])

@@ -21,6 +21,7 @@ from collections import Counter
 import numpy as np
 import pytest
 from editing_fixtures import (
+    KINDS,
     dataset,
     drop_rows,
     everyone,
@@ -34,9 +35,6 @@ from imblearn.under_sampling import EditedNearestNeighbours, RepeatedEditedNeare
 from curate.methods.editing import renn
 
 pytestmark = pytest.mark.usefixtures("one_thread")  # see tests/methods/conftest.py
-
-KINDS = {"majority": "mode", "unanimous": "all"}
-
 
 def tie_rows_along_the_way(X: np.ndarray, y: np.ndarray, k: int) -> np.ndarray:
     """Rows that meet an own-label tie (scikit-learn's neighbours) in some RENN round."""
